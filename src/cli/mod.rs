@@ -1,0 +1,199 @@
+//! Command-line glue: the argument definitions, the error type that carries
+//! an exit code, and the dispatch to one file per subcommand.
+
+mod build;
+mod fit;
+mod progress;
+mod run;
+mod show;
+
+use std::path::PathBuf;
+
+use clap::{Parser, Subcommand};
+use themata::corpus::CorpusError;
+use themata::fit::FitError;
+use themata::format::FormatError;
+use themata::settings::{
+    FitOptions, InputOptions, OutputOptions, SettingsError, TokenizerOptions, VocabularyOptions,
+};
+
+/// Exit code for bad input or usage.
+pub const EXIT_BAD_INPUT: u8 = 2;
+/// Exit code for I/O or internal failures.
+pub const EXIT_FAILURE: u8 = 3;
+
+/// A failed command: what went wrong and the exit code it maps to.
+#[derive(Debug)]
+pub struct Failure {
+    pub code: u8,
+    pub error: anyhow::Error,
+}
+
+impl Failure {
+    /// A failure caused by the user's input or options.
+    pub fn bad_input(error: impl Into<anyhow::Error>) -> Failure {
+        Failure {
+            code: EXIT_BAD_INPUT,
+            error: error.into(),
+        }
+    }
+
+    /// A failure of the system (I/O) or of themata itself.
+    pub fn system(error: impl Into<anyhow::Error>) -> Failure {
+        Failure {
+            code: EXIT_FAILURE,
+            error: error.into(),
+        }
+    }
+}
+
+impl From<SettingsError> for Failure {
+    fn from(err: SettingsError) -> Failure {
+        Failure::bad_input(err)
+    }
+}
+
+impl From<FitError> for Failure {
+    fn from(err: FitError) -> Failure {
+        Failure::bad_input(err)
+    }
+}
+
+impl From<CorpusError> for Failure {
+    fn from(err: CorpusError) -> Failure {
+        match &err {
+            CorpusError::Read(themata::read::ReadError::Io { .. }) => Failure::system(err),
+            _ => Failure::bad_input(err),
+        }
+    }
+}
+
+impl From<FormatError> for Failure {
+    fn from(err: FormatError) -> Failure {
+        if err.is_bad_input() {
+            Failure::bad_input(err)
+        } else {
+            Failure::system(err)
+        }
+    }
+}
+
+/// Topic models for document collections: build a corpus from raw text, fit
+/// LDA by collapsed Gibbs sampling, and show the topics and document mixtures.
+#[derive(Parser, Debug)]
+#[command(name = "themata", version, about, long_about = None)]
+#[command(after_help = "Exit codes: 0 success, 2 bad input or usage, 3 I/O or internal failure.")]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Read raw documents and write a tokenized corpus file
+    Build(BuildArgs),
+    /// Fit a topic model to a corpus file and write a model folder
+    Fit(FitArgs),
+    /// Print a model's topics or its documents' topic shares
+    Show(show::ShowArgs),
+    /// Build, fit and report in one go, as a config file describes
+    Run(RunArgs),
+}
+
+/// Arguments of `themata build`.
+#[derive(clap::Args, Debug)]
+pub struct BuildArgs {
+    /// Input files or folders; `-` reads JSON Lines from stdin
+    #[arg(required = true, value_name = "INPUT")]
+    pub inputs: Vec<PathBuf>,
+    /// Corpus file to write
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    #[command(flatten, next_help_heading = "Input")]
+    pub input: InputOptions,
+    #[command(flatten, next_help_heading = "Tokenizer")]
+    pub tokenizer: TokenizerOptions,
+    #[command(flatten, next_help_heading = "Vocabulary")]
+    pub vocabulary: VocabularyOptions,
+    /// Print nothing but errors
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// Arguments of `themata fit`.
+#[derive(clap::Args, Debug)]
+pub struct FitArgs {
+    /// Corpus file written by `themata build`
+    #[arg(value_name = "CORPUS")]
+    pub corpus: PathBuf,
+    /// Model folder to write (replaced whole if it holds an earlier model)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+    #[command(flatten, next_help_heading = "Fitting")]
+    pub fit: FitOptions,
+    /// No progress bar and no summary line
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// Arguments of `themata run`.
+#[derive(clap::Args, Debug)]
+pub struct RunArgs {
+    /// Config file (TOML) naming inputs, settings and the output folder
+    #[arg(value_name = "CONFIG")]
+    pub config: PathBuf,
+    #[command(flatten, next_help_heading = "Input (overrides the config file)")]
+    pub input: InputOptions,
+    #[command(flatten, next_help_heading = "Tokenizer (overrides the config file)")]
+    pub tokenizer: TokenizerOptions,
+    #[command(flatten, next_help_heading = "Vocabulary (overrides the config file)")]
+    pub vocabulary: VocabularyOptions,
+    #[command(flatten, next_help_heading = "Fitting (overrides the config file)")]
+    pub fit: FitOptions,
+    #[command(flatten, next_help_heading = "Output (overrides the config file)")]
+    pub output: OutputOptions,
+    /// No progress bar; print only the report
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// The whole chain of an error once: each cause is added unless the message
+/// already says it.
+pub fn describe(error: &anyhow::Error) -> String {
+    let mut message = error.to_string();
+    for cause in error.chain().skip(1) {
+        let cause = cause.to_string();
+        if !message.contains(&cause) {
+            message.push_str(": ");
+            message.push_str(&cause);
+        }
+    }
+    message
+}
+
+/// Parses the process arguments (exits with code 2 on usage errors).
+pub fn parse() -> Cli {
+    Cli::parse()
+}
+
+/// Runs one subcommand.
+pub fn run(cli: Cli) -> Result<(), Failure> {
+    match cli.command {
+        Command::Build(args) => build::run(args),
+        Command::Fit(args) => fit::run(args),
+        Command::Show(args) => show::run(args),
+        Command::Run(args) => run::run(args),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use clap::CommandFactory;
+
+    #[test]
+    fn argument_definitions_are_consistent() {
+        // Source: clap documentation — `Command::debug_assert` checks the definitions.
+        super::Cli::command().debug_assert();
+    }
+}

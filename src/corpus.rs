@@ -1,0 +1,274 @@
+//! The corpus: documents as word ids over a fixed vocabulary, together with
+//! the tokenizer settings that produced them. Built from raw inputs by
+//! streaming (raw text is dropped as soon as it is tokenized) and stored as
+//! a framed corpus file.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use crate::format::{self, FileKind, FormatError};
+use crate::read::{self, Diagnostic, DiagnosticKind, Origin, ReadError, ReadOptions};
+use crate::tokenize::{TokenizeError, Tokenizer, TokenizerSettings};
+use crate::vocab::{PruneReport, PruneRules, VocabBuilder, Vocabulary};
+
+/// What is known of one document besides its tokens.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct DocumentInfo {
+    /// The document's id (file path, or the id field of its record).
+    pub id: String,
+    /// The document's label, when the input has one; kept as metadata only.
+    pub label: Option<String>,
+    /// Where it was read from (`file` or `file:line`).
+    pub source: String,
+}
+
+/// A tokenized corpus.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Corpus {
+    /// How the text was cut into tokens.
+    pub tokenizer: TokenizerSettings,
+    /// The words and their training statistics.
+    pub vocabulary: Vocabulary,
+    /// One entry per document.
+    pub documents: Vec<DocumentInfo>,
+    /// `offsets[d]..offsets[d + 1]` are document `d`'s positions in `tokens`.
+    pub offsets: Vec<u64>,
+    /// Word ids of all documents, document after document.
+    pub tokens: Vec<u32>,
+}
+
+impl Corpus {
+    /// Number of documents.
+    pub fn n_docs(&self) -> usize {
+        self.documents.len()
+    }
+
+    /// Number of tokens.
+    pub fn n_tokens(&self) -> usize {
+        self.tokens.len()
+    }
+
+    /// The word ids of document `doc_idx`.
+    pub fn doc_tokens(&self, doc_idx: usize) -> &[u32] {
+        &self.tokens[self.offsets[doc_idx] as usize..self.offsets[doc_idx + 1] as usize]
+    }
+
+    /// Builds a corpus in memory from word-id documents (tests and generators).
+    pub fn from_documents(vocabulary: Vocabulary, docs: Vec<Vec<u32>>) -> Corpus {
+        let mut offsets = vec![0u64];
+        let mut tokens = Vec::new();
+        let mut documents = Vec::new();
+        for (idx, doc) in docs.into_iter().enumerate() {
+            tokens.extend_from_slice(&doc);
+            offsets.push(tokens.len() as u64);
+            documents.push(DocumentInfo {
+                id: format!("doc-{idx}"),
+                label: None,
+                source: String::new(),
+            });
+        }
+        Corpus {
+            tokenizer: TokenizerSettings::default(),
+            vocabulary,
+            documents,
+            offsets,
+            tokens,
+        }
+    }
+
+    /// Checks the invariants a decoded corpus must hold.
+    fn validate(&self, path: &Path) -> Result<(), FormatError> {
+        let bad = |detail: &str| FormatError::Decode {
+            path: path.to_path_buf(),
+            detail: detail.to_string(),
+        };
+        if self.offsets.len() != self.documents.len() + 1 || self.offsets.first() != Some(&0) {
+            return Err(bad("document offsets do not match the document list"));
+        }
+        if self.offsets.windows(2).any(|pair| pair[0] > pair[1])
+            || *self.offsets.last().unwrap_or(&0) != self.tokens.len() as u64
+        {
+            return Err(bad(
+                "document offsets are not increasing or do not cover the tokens",
+            ));
+        }
+        let n_words = self.vocabulary.len() as u32;
+        if self.tokens.iter().any(|&word| word >= n_words) {
+            return Err(bad("a token refers to a word outside the vocabulary"));
+        }
+        Ok(())
+    }
+
+    /// Writes the corpus file crash-safely.
+    pub fn save(&self, path: &Path) -> Result<(), FormatError> {
+        format::write_file(FileKind::Corpus, self, path)
+    }
+
+    /// Reads and validates a corpus file.
+    pub fn load(path: &Path) -> Result<Corpus, FormatError> {
+        let mut corpus: Corpus = format::read_file(FileKind::Corpus, path)?;
+        corpus.vocabulary.rebuild_index();
+        corpus.validate(path)?;
+        Ok(corpus)
+    }
+}
+
+/// Everything `build` needs besides the input paths.
+#[derive(Clone, Debug)]
+pub struct BuildSettings {
+    pub read: ReadOptions,
+    pub tokenizer: TokenizerSettings,
+    pub prune: PruneRules,
+}
+
+/// What happened during a build, for the summary and the report.
+#[derive(Clone, Debug, Default, Serialize, Deserialize)]
+pub struct BuildSummary {
+    /// Documents (files or records) considered.
+    pub documents_read: usize,
+    /// Documents in the corpus.
+    pub documents_kept: usize,
+    /// Skipped documents by reason.
+    pub skipped: BTreeMap<String, usize>,
+    /// Every skipped document with where it came from and why.
+    pub diagnostics: Vec<Diagnostic>,
+    /// Tokens in the corpus.
+    pub tokens: usize,
+    /// Tokens the tokenizer produced before vocabulary pruning.
+    pub tokens_before_pruning: usize,
+    /// Words in the vocabulary.
+    pub vocabulary: usize,
+    /// How pruning shrank the vocabulary.
+    pub pruning: PruneReport,
+}
+
+/// Problems that stop a build.
+#[derive(Debug, thiserror::Error)]
+pub enum CorpusError {
+    #[error(transparent)]
+    Read(#[from] ReadError),
+    #[error(transparent)]
+    Tokenize(#[from] TokenizeError),
+    #[error(
+        "no document has any words left ({read} read, {skipped} skipped); check the inputs, the text field and the pruning settings"
+    )]
+    Empty { read: usize, skipped: usize },
+}
+
+fn kind_name(kind: DiagnosticKind) -> String {
+    serde_json::to_value(kind)
+        .ok()
+        .and_then(|value| value.as_str().map(str::to_string))
+        .unwrap_or_else(|| format!("{kind:?}"))
+}
+
+/// Reads, tokenizes and prunes the inputs into a corpus.
+pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, BuildSummary), CorpusError> {
+    let tokenizer = Tokenizer::new(&settings.tokenizer)?;
+    let mut vocab = VocabBuilder::new();
+    let mut documents: Vec<DocumentInfo> = Vec::new();
+    let mut offsets: Vec<u64> = vec![0];
+    let mut tokens: Vec<u32> = Vec::new();
+    let mut diagnostics: Vec<Diagnostic> = Vec::new();
+    let mut no_tokens: Vec<Diagnostic> = Vec::new();
+    let counts = read::read_documents(inputs, &settings.read, &mut diagnostics, &mut |doc| {
+        let start = tokens.len();
+        vocab.start_document();
+        tokenizer.for_each_token(&doc.text, &mut |token| tokens.push(vocab.add_token(token)));
+        if tokens.len() == start {
+            vocab.remove_document(&[]);
+            no_tokens.push(Diagnostic {
+                kind: DiagnosticKind::NoTokens,
+                origin: doc.origin.clone(),
+                document: Some(doc.id.clone()),
+                message: format!("document `{}` has no tokens after tokenizing", doc.id),
+            });
+            return;
+        }
+        offsets.push(tokens.len() as u64);
+        documents.push(DocumentInfo {
+            id: doc.id,
+            label: doc.label,
+            source: doc.origin.to_string(),
+        });
+    })?;
+    diagnostics.append(&mut no_tokens);
+    let tokens_before_pruning = tokens.len();
+    let (vocabulary, remap, pruning) = vocab.finish(&settings.prune);
+
+    // Rewrite provisional ids to final ids in place, dropping pruned words and
+    // documents left with nothing.
+    let mut kept_docs = Vec::with_capacity(documents.len());
+    let mut new_offsets = vec![0u64];
+    let mut write = 0usize;
+    for (doc_idx, info) in documents.into_iter().enumerate() {
+        let (start, end) = (offsets[doc_idx] as usize, offsets[doc_idx + 1] as usize);
+        let doc_start = write;
+        for read_pos in start..end {
+            if let Some(word) = remap[tokens[read_pos] as usize] {
+                tokens[write] = word;
+                write += 1;
+            }
+        }
+        if write == doc_start {
+            diagnostics.push(Diagnostic {
+                kind: DiagnosticKind::NoTokens,
+                origin: parse_origin(&info.source),
+                document: Some(info.id.clone()),
+                message: format!(
+                    "document `{}` has no words left after vocabulary pruning",
+                    info.id
+                ),
+            });
+            continue;
+        }
+        new_offsets.push(write as u64);
+        kept_docs.push(info);
+    }
+    tokens.truncate(write);
+    tokens.shrink_to_fit();
+
+    let mut skipped = BTreeMap::new();
+    for diagnostic in &diagnostics {
+        *skipped.entry(kind_name(diagnostic.kind)).or_insert(0) += 1;
+    }
+    if kept_docs.is_empty() {
+        return Err(CorpusError::Empty {
+            read: counts.records_seen,
+            skipped: diagnostics.len(),
+        });
+    }
+    let summary = BuildSummary {
+        documents_read: counts.records_seen,
+        documents_kept: kept_docs.len(),
+        skipped,
+        diagnostics,
+        tokens: tokens.len(),
+        tokens_before_pruning,
+        vocabulary: vocabulary.len(),
+        pruning,
+    };
+    let corpus = Corpus {
+        tokenizer: settings.tokenizer.clone(),
+        vocabulary,
+        documents: kept_docs,
+        offsets: new_offsets,
+        tokens,
+    };
+    Ok((corpus, summary))
+}
+
+fn parse_origin(source: &str) -> Origin {
+    match source.rsplit_once(':') {
+        Some((file, line)) if line.parse::<u64>().is_ok() => Origin {
+            file: file.to_string(),
+            line: line.parse().ok(),
+        },
+        _ => Origin {
+            file: source.to_string(),
+            line: None,
+        },
+    }
+}

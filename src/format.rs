@@ -1,0 +1,467 @@
+//! On-disk framing shared by every binary file themata writes, and crash-safe
+//! writing of files and output folders.
+//!
+//! A framed file is a 24-byte header followed by a postcard payload:
+//!
+//! | offset | size | field                                        |
+//! |--------|------|----------------------------------------------|
+//! | 0      | 8    | magic bytes naming the file kind             |
+//! | 8      | 4    | format version, little-endian u32            |
+//! | 12     | 8    | payload length in bytes, little-endian u64   |
+//! | 20     | 4    | CRC-32 (IEEE) of the payload, little-endian  |
+//! | 24     | n    | payload (postcard encoding)                  |
+//!
+//! The header is checked (magic, version, length, checksum) before a single
+//! payload byte is decoded. Nothing outside this module knows the byte layout.
+
+use std::fs::{self, File};
+use std::io::{self, Read, Write};
+use std::path::{Path, PathBuf};
+
+use serde::Serialize;
+use serde::de::DeserializeOwned;
+
+/// Length of the fixed header in bytes.
+pub const HEADER_LEN: usize = 24;
+
+/// The kinds of framed file, each with its own magic bytes and current version.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FileKind {
+    /// A tokenized corpus written by `themata build`.
+    Corpus,
+    /// A fitted model written by `themata fit`.
+    Model,
+}
+
+impl FileKind {
+    /// The magic bytes at the start of the file.
+    pub fn magic(self) -> &'static [u8; 8] {
+        match self {
+            FileKind::Corpus => b"THMTCRP\x01",
+            FileKind::Model => b"THMTMDL\x01",
+        }
+    }
+
+    /// The format version this build writes and reads.
+    pub fn current_version(self) -> u32 {
+        match self {
+            FileKind::Corpus => 1,
+            FileKind::Model => 1,
+        }
+    }
+
+    /// A human name for messages.
+    pub fn name(self) -> &'static str {
+        match self {
+            FileKind::Corpus => "corpus",
+            FileKind::Model => "model",
+        }
+    }
+}
+
+/// Problems reading or writing framed files and output folders.
+#[derive(Debug, thiserror::Error)]
+pub enum FormatError {
+    #[error("{path}: no such file; check the path")]
+    Missing { path: PathBuf },
+    #[error("{path}: {source}")]
+    Io {
+        path: PathBuf,
+        #[source]
+        source: io::Error,
+    },
+    #[error(
+        "{path}: not a themata {expected} file (unexpected magic bytes); check that you passed the right file"
+    )]
+    BadMagic { path: PathBuf, expected: &'static str },
+    #[error(
+        "{path}: {kind} format version {found} is not supported by this build (it reads version {supported}); rebuild the file with this version of themata"
+    )]
+    UnsupportedVersion {
+        path: PathBuf,
+        kind: &'static str,
+        found: u32,
+        supported: u32,
+    },
+    #[error(
+        "{path}: file is truncated or padded (header says {expected} payload bytes, found {found}); the file is damaged, rebuild it"
+    )]
+    BadLength {
+        path: PathBuf,
+        expected: u64,
+        found: u64,
+    },
+    #[error("{path}: checksum mismatch (the file is damaged); rebuild it")]
+    BadChecksum { path: PathBuf },
+    #[error("{path}: payload cannot be decoded ({detail}); the file is damaged, rebuild it")]
+    Decode { path: PathBuf, detail: String },
+    #[error("{path}: cannot encode {kind} ({detail})")]
+    Encode {
+        path: PathBuf,
+        kind: &'static str,
+        detail: String,
+    },
+    #[error(
+        "{path}: exists and is not a themata output folder (no {marker}); choose another folder or remove it"
+    )]
+    NotOutputFolder { path: PathBuf, marker: &'static str },
+}
+
+impl FormatError {
+    fn io(path: &Path, source: io::Error) -> FormatError {
+        FormatError::Io {
+            path: path.to_path_buf(),
+            source,
+        }
+    }
+
+    /// True when the error is about the file's content rather than the system.
+    pub fn is_bad_input(&self) -> bool {
+        !matches!(self, FormatError::Io { .. } | FormatError::Encode { .. })
+    }
+}
+
+/// Encodes `value` as a framed file image (header + payload).
+pub fn encode<T: Serialize>(kind: FileKind, value: &T, path: &Path) -> Result<Vec<u8>, FormatError> {
+    let payload = postcard::to_allocvec(value).map_err(|err| FormatError::Encode {
+        path: path.to_path_buf(),
+        kind: kind.name(),
+        detail: err.to_string(),
+    })?;
+    let mut bytes = Vec::with_capacity(HEADER_LEN + payload.len());
+    bytes.extend_from_slice(kind.magic());
+    bytes.extend_from_slice(&kind.current_version().to_le_bytes());
+    bytes.extend_from_slice(&(payload.len() as u64).to_le_bytes());
+    bytes.extend_from_slice(&crc32fast::hash(&payload).to_le_bytes());
+    bytes.extend_from_slice(&payload);
+    Ok(bytes)
+}
+
+/// Checks the header of a framed file image and decodes its payload.
+pub fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) -> Result<T, FormatError> {
+    let path_buf = || path.to_path_buf();
+    if bytes.len() < 8 || &bytes[..8] != kind.magic() {
+        return Err(FormatError::BadMagic {
+            path: path_buf(),
+            expected: kind.name(),
+        });
+    }
+    if bytes.len() < HEADER_LEN {
+        return Err(FormatError::BadLength {
+            path: path_buf(),
+            expected: HEADER_LEN as u64,
+            found: bytes.len() as u64,
+        });
+    }
+    let version = u32::from_le_bytes(bytes[8..12].try_into().expect("4 bytes"));
+    if version != kind.current_version() {
+        return Err(FormatError::UnsupportedVersion {
+            path: path_buf(),
+            kind: kind.name(),
+            found: version,
+            supported: kind.current_version(),
+        });
+    }
+    let length = u64::from_le_bytes(bytes[12..20].try_into().expect("8 bytes"));
+    let checksum = u32::from_le_bytes(bytes[20..24].try_into().expect("4 bytes"));
+    let payload = &bytes[HEADER_LEN..];
+    if payload.len() as u64 != length {
+        return Err(FormatError::BadLength {
+            path: path_buf(),
+            expected: length,
+            found: payload.len() as u64,
+        });
+    }
+    if crc32fast::hash(payload) != checksum {
+        return Err(FormatError::BadChecksum { path: path_buf() });
+    }
+    postcard::from_bytes(payload).map_err(|err| FormatError::Decode {
+        path: path_buf(),
+        detail: err.to_string(),
+    })
+}
+
+/// Reads and decodes a framed file.
+pub fn read_file<T: DeserializeOwned>(kind: FileKind, path: &Path) -> Result<T, FormatError> {
+    let mut bytes = Vec::new();
+    File::open(path)
+        .and_then(|mut file| file.read_to_end(&mut bytes))
+        .map_err(|err| match err.kind() {
+            io::ErrorKind::NotFound => FormatError::Missing {
+                path: path.to_path_buf(),
+            },
+            _ => FormatError::io(path, err),
+        })?;
+    decode(kind, &bytes, path)
+}
+
+/// Encodes `value` and writes it to `path` crash-safely.
+pub fn write_file<T: Serialize>(kind: FileKind, value: &T, path: &Path) -> Result<(), FormatError> {
+    let bytes = encode(kind, value, path)?;
+    write_atomic(path, &bytes)
+}
+
+/// Writes `bytes` to `path` so that a reader sees either the old file or the
+/// complete new one: write a temporary file in the same folder, fsync it,
+/// rename it over the target, fsync the folder.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), FormatError> {
+    let folder = parent_of(path);
+    let name = path
+        .file_name()
+        .map(|name| name.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "output".into());
+    let temp = folder.join(format!(".{name}.tmp-{}", std::process::id()));
+    let result = (|| -> io::Result<()> {
+        let mut file = File::create(&temp)?;
+        file.write_all(bytes)?;
+        file.sync_all()?;
+        drop(file);
+        fs::rename(&temp, path)?;
+        sync_folder(&folder);
+        Ok(())
+    })();
+    if result.is_err() {
+        let _ = fs::remove_file(&temp);
+    }
+    result.map_err(|err| FormatError::io(path, err))
+}
+
+fn parent_of(path: &Path) -> PathBuf {
+    match path.parent() {
+        Some(parent) if !parent.as_os_str().is_empty() => parent.to_path_buf(),
+        _ => PathBuf::from("."),
+    }
+}
+
+fn sync_folder(folder: &Path) {
+    // Best effort: not every platform lets a folder be opened for syncing.
+    if let Ok(handle) = File::open(folder) {
+        let _ = handle.sync_all();
+    }
+}
+
+/// The file that marks a folder as a themata output folder.
+pub const OUTPUT_MARKER: &str = "summary.json";
+
+/// An output folder under construction. Files are written into a hidden
+/// staging folder beside the target; [`StagedFolder::commit`] swaps it into
+/// place in one step, so a run killed at any moment leaves the previous
+/// complete folder (or no folder) behind, never a half-written one.
+pub struct StagedFolder {
+    target: PathBuf,
+    staging: PathBuf,
+    committed: bool,
+}
+
+impl StagedFolder {
+    /// Starts a staged write of `target`. Refuses an existing folder that is
+    /// not a themata output folder, so user files are never swept away.
+    pub fn begin(target: &Path) -> Result<StagedFolder, FormatError> {
+        if target.exists() && !target.join(OUTPUT_MARKER).is_file() {
+            let empty = fs::read_dir(target)
+                .map(|mut entries| entries.next().is_none())
+                .unwrap_or(false);
+            if !empty {
+                return Err(FormatError::NotOutputFolder {
+                    path: target.to_path_buf(),
+                    marker: OUTPUT_MARKER,
+                });
+            }
+        }
+        let parent = parent_of(target);
+        fs::create_dir_all(&parent).map_err(|err| FormatError::io(&parent, err))?;
+        let name = target
+            .file_name()
+            .map(|name| name.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "output".into());
+        let staging = parent.join(format!(".{name}.staging-{}", std::process::id()));
+        if staging.exists() {
+            fs::remove_dir_all(&staging).map_err(|err| FormatError::io(&staging, err))?;
+        }
+        fs::create_dir(&staging).map_err(|err| FormatError::io(&staging, err))?;
+        Ok(StagedFolder {
+            target: target.to_path_buf(),
+            staging,
+            committed: false,
+        })
+    }
+
+    /// Path of a file inside the staging folder.
+    pub fn path(&self, name: &str) -> PathBuf {
+        self.staging.join(name)
+    }
+
+    /// Writes one file into the staging folder (synced to disk).
+    pub fn write(&self, name: &str, bytes: &[u8]) -> Result<(), FormatError> {
+        let path = self.path(name);
+        let result = File::create(&path).and_then(|mut file| {
+            file.write_all(bytes)?;
+            file.sync_all()
+        });
+        result.map_err(|err| FormatError::io(&path, err))
+    }
+
+    /// Swaps the staging folder into place.
+    pub fn commit(mut self) -> Result<PathBuf, FormatError> {
+        sync_folder(&self.staging);
+        let io_err = |err| FormatError::io(&self.target, err);
+        if self.target.exists() {
+            swap_folders(&self.staging, &self.target).map_err(io_err)?;
+            // The staging path now holds the previous output.
+            fs::remove_dir_all(&self.staging).map_err(io_err)?;
+        } else {
+            fs::rename(&self.staging, &self.target).map_err(io_err)?;
+        }
+        sync_folder(&parent_of(&self.target));
+        self.committed = true;
+        Ok(self.target.clone())
+    }
+}
+
+impl Drop for StagedFolder {
+    fn drop(&mut self) {
+        if !self.committed {
+            let _ = fs::remove_dir_all(&self.staging);
+        }
+    }
+}
+
+/// Exchanges two folders atomically where the system can (Linux
+/// `renameat2(RENAME_EXCHANGE)`), else by two renames.
+#[allow(unsafe_code)]
+fn swap_folders(a: &Path, b: &Path) -> io::Result<()> {
+    #[cfg(target_os = "linux")]
+    {
+        use std::ffi::CString;
+        use std::os::unix::ffi::OsStrExt;
+        let a_c = CString::new(a.as_os_str().as_bytes())
+            .map_err(|_| io::Error::new(io::ErrorKind::InvalidInput, "path has a NUL byte"))?;
+        let b_c = CString::new(b.as_os_str().as_bytes())
+            .map_err(|_| io::Error::new(io::ErrorKind::InvalidInput, "path has a NUL byte"))?;
+        // SAFETY: both pointers are valid NUL-terminated strings that outlive the call.
+        let rc = unsafe {
+            libc::renameat2(
+                libc::AT_FDCWD,
+                a_c.as_ptr(),
+                libc::AT_FDCWD,
+                b_c.as_ptr(),
+                libc::RENAME_EXCHANGE,
+            )
+        };
+        if rc == 0 {
+            return Ok(());
+        }
+        let err = io::Error::last_os_error();
+        if !matches!(err.raw_os_error(), Some(libc::EINVAL) | Some(libc::ENOSYS)) {
+            return Err(err);
+        }
+    }
+    // Fallback: move the old folder aside, move the new one in, and leave the
+    // old one at `a` for the caller to remove.
+    let aside = a.with_extension("previous");
+    fs::rename(b, &aside)?;
+    fs::rename(a, b)?;
+    fs::rename(&aside, a)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[derive(serde::Serialize, serde::Deserialize, Debug, PartialEq)]
+    struct Sample {
+        words: Vec<String>,
+        counts: Vec<u32>,
+    }
+
+    fn sample() -> Sample {
+        Sample {
+            words: vec!["harbour".into(), "tide".into()],
+            counts: vec![3, 1, 4, 1, 5],
+        }
+    }
+
+    #[test]
+    fn round_trip_through_a_file() {
+        let folder = tempfile::tempdir().unwrap();
+        let path = folder.path().join("x.bin");
+        write_file(FileKind::Corpus, &sample(), &path).unwrap();
+        let back: Sample = read_file(FileKind::Corpus, &path).unwrap();
+        assert_eq!(back, sample());
+    }
+
+    #[test]
+    fn every_flipped_byte_and_every_truncation_is_refused() {
+        // Source: common practice — a CRC-32 detects every single-byte error,
+        // and the header fields are checked before decoding.
+        let path = Path::new("x.bin");
+        let bytes = encode(FileKind::Model, &sample(), path).unwrap();
+        for index in 0..bytes.len() {
+            let mut damaged = bytes.clone();
+            damaged[index] ^= 0x20;
+            assert!(
+                decode::<Sample>(FileKind::Model, &damaged, path).is_err(),
+                "flip at {index}"
+            );
+        }
+        for len in 0..bytes.len() {
+            assert!(
+                decode::<Sample>(FileKind::Model, &bytes[..len], path).is_err(),
+                "cut at {len}"
+            );
+        }
+    }
+
+    #[test]
+    fn wrong_kind_and_version_are_named() {
+        let path = Path::new("x.bin");
+        let bytes = encode(FileKind::Model, &sample(), path).unwrap();
+        let err = decode::<Sample>(FileKind::Corpus, &bytes, path).unwrap_err();
+        assert!(err.to_string().contains("not a themata corpus file"), "{err}");
+        let mut newer = bytes.clone();
+        newer[8..12].copy_from_slice(&99u32.to_le_bytes());
+        let err = decode::<Sample>(FileKind::Model, &newer, path).unwrap_err();
+        assert!(err.to_string().contains("version 99"), "{err}");
+    }
+
+    #[test]
+    fn staged_folder_replaces_previous_output_whole() {
+        let root = tempfile::tempdir().unwrap();
+        let target = root.path().join("out");
+        let first = StagedFolder::begin(&target).unwrap();
+        first.write(OUTPUT_MARKER, b"{\"run\":1}").unwrap();
+        first.write("extra.txt", b"old").unwrap();
+        first.commit().unwrap();
+        let second = StagedFolder::begin(&target).unwrap();
+        second.write(OUTPUT_MARKER, b"{\"run\":2}").unwrap();
+        // Before commit the old output is untouched.
+        assert_eq!(fs::read(target.join(OUTPUT_MARKER)).unwrap(), b"{\"run\":1}");
+        second.commit().unwrap();
+        assert_eq!(fs::read(target.join(OUTPUT_MARKER)).unwrap(), b"{\"run\":2}");
+        assert!(!target.join("extra.txt").exists());
+        let leftovers: Vec<_> = fs::read_dir(root.path()).unwrap().collect();
+        assert_eq!(leftovers.len(), 1, "staging folders were cleaned up");
+    }
+
+    #[test]
+    fn abandoned_stage_leaves_old_output() {
+        let root = tempfile::tempdir().unwrap();
+        let target = root.path().join("out");
+        let first = StagedFolder::begin(&target).unwrap();
+        first.write(OUTPUT_MARKER, b"1").unwrap();
+        first.commit().unwrap();
+        {
+            let second = StagedFolder::begin(&target).unwrap();
+            second.write(OUTPUT_MARKER, b"2").unwrap();
+        }
+        assert_eq!(fs::read(target.join(OUTPUT_MARKER)).unwrap(), b"1");
+    }
+
+    #[test]
+    fn refuses_a_folder_of_user_files() {
+        let root = tempfile::tempdir().unwrap();
+        fs::write(root.path().join("thesis.tex"), "mine").unwrap();
+        let err = StagedFolder::begin(root.path()).err().unwrap();
+        assert!(err.to_string().contains("not a themata output folder"), "{err}");
+    }
+}

@@ -1,0 +1,196 @@
+//! Synthetic corpora drawn from the LDA generative process, with the true
+//! topics and shares kept so tests and benchmarks can compare against them.
+//! Includes the published worked examples: the bars of Griffiths & Steyvers
+//! (2004) and the two-topic toy of Steyvers & Griffiths (2007).
+
+use rand::{RngExt, SeedableRng};
+use rand_distr::{Distribution, Gamma};
+use rand_xoshiro::Xoshiro256PlusPlus;
+
+use crate::corpus::Corpus;
+use crate::vocab::Vocabulary;
+
+/// A generated corpus with the truth behind it.
+#[derive(Clone, Debug)]
+pub struct Synthetic {
+    /// The documents.
+    pub corpus: Corpus,
+    /// True topic-word distributions, K rows of V.
+    pub topics: Vec<Vec<f64>>,
+    /// True document-topic shares, D rows of K.
+    pub shares: Vec<Vec<f64>>,
+    /// The topic that generated each token.
+    pub assignments: Vec<u32>,
+}
+
+/// Draws from Dirichlet(`concentration`) by normalised Gamma variates.
+pub fn dirichlet(concentration: &[f64], rng: &mut impl rand::Rng) -> Vec<f64> {
+    let mut draws: Vec<f64> = concentration
+        .iter()
+        .map(|&a| Gamma::new(a, 1.0).expect("positive concentration").sample(rng))
+        .collect();
+    let total: f64 = draws.iter().sum();
+    if total > 0.0 {
+        for draw in &mut draws {
+            *draw /= total;
+        }
+    } else {
+        // Every draw underflowed (tiny concentrations): put all mass on one entry.
+        let pick = rng.random_range(0..draws.len());
+        for (idx, draw) in draws.iter_mut().enumerate() {
+            *draw = if idx == pick { 1.0 } else { 0.0 };
+        }
+    }
+    draws
+}
+
+/// Index drawn from the discrete distribution `weights` (summing to about 1).
+pub fn categorical(weights: &[f64], rng: &mut impl rand::Rng) -> usize {
+    let total: f64 = weights.iter().sum();
+    let mut target = rng.random::<f64>() * total;
+    for (idx, &weight) in weights.iter().enumerate() {
+        if target < weight {
+            return idx;
+        }
+        target -= weight;
+    }
+    weights.len() - 1
+}
+
+/// Generates documents from fixed topics: for each document, shares from
+/// Dirichlet(`alpha`), then each token's topic from the shares and its word
+/// from that topic.
+pub fn from_topics(
+    topics: Vec<Vec<f64>>,
+    alpha: &[f64],
+    doc_lengths: &[usize],
+    word_names: Vec<String>,
+    seed: u64,
+) -> Synthetic {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let mut docs = Vec::with_capacity(doc_lengths.len());
+    let mut shares = Vec::with_capacity(doc_lengths.len());
+    let mut assignments = Vec::new();
+    for &doc_len in doc_lengths {
+        let theta = dirichlet(alpha, &mut rng);
+        let mut doc = Vec::with_capacity(doc_len);
+        for _ in 0..doc_len {
+            let topic = categorical(&theta, &mut rng);
+            doc.push(categorical(&topics[topic], &mut rng) as u32);
+            assignments.push(topic as u32);
+        }
+        docs.push(doc);
+        shares.push(theta);
+    }
+    let n_words = word_names.len();
+    let mut word_counts = vec![0u64; n_words];
+    let mut doc_counts = vec![0u32; n_words];
+    for doc in &docs {
+        let mut seen = vec![false; n_words];
+        for &word in doc {
+            word_counts[word as usize] += 1;
+            if !seen[word as usize] {
+                seen[word as usize] = true;
+                doc_counts[word as usize] += 1;
+            }
+        }
+    }
+    let vocabulary = Vocabulary::from_parts(word_names, word_counts, doc_counts);
+    Synthetic {
+        corpus: Corpus::from_documents(vocabulary, docs),
+        topics,
+        shares,
+        assignments,
+    }
+}
+
+/// The bars example (Griffiths & Steyvers 2004): a 5x5 pixel vocabulary,
+/// ten topics each putting 1/5 on one row or one column.
+pub fn bars(n_docs: usize, doc_len: usize, alpha: f64, seed: u64) -> Synthetic {
+    let side = 5;
+    let mut topics = Vec::with_capacity(2 * side);
+    for row in 0..side {
+        let mut topic = vec![0.0; side * side];
+        for col in 0..side {
+            topic[row * side + col] = 1.0 / side as f64;
+        }
+        topics.push(topic);
+    }
+    for col in 0..side {
+        let mut topic = vec![0.0; side * side];
+        for row in 0..side {
+            topic[row * side + col] = 1.0 / side as f64;
+        }
+        topics.push(topic);
+    }
+    let names = (0..side * side)
+        .map(|p| format!("px{}{}", p / side, p % side))
+        .collect();
+    from_topics(
+        topics,
+        &vec![alpha; 2 * side],
+        &vec![doc_len; n_docs],
+        names,
+        seed,
+    )
+}
+
+/// The two-topic toy (Steyvers & Griffiths 2007): five words; topic 0 puts
+/// 1/3 on words 0-2, topic 1 on words 2-4 (sharing word 2); 16 documents of
+/// 16 tokens whose share of topic 0 runs evenly from 1 down to 0.
+pub fn two_topics(seed: u64) -> Synthetic {
+    let third = 1.0 / 3.0;
+    let topics = vec![
+        vec![third, third, third, 0.0, 0.0],
+        vec![0.0, 0.0, third, third, third],
+    ];
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let mut docs = Vec::new();
+    let mut shares = Vec::new();
+    let mut assignments = Vec::new();
+    let n_docs = 16;
+    for doc_idx in 0..n_docs {
+        let first = 1.0 - doc_idx as f64 / (n_docs - 1) as f64;
+        let theta = vec![first, 1.0 - first];
+        let mut doc = Vec::new();
+        for _ in 0..16 {
+            let topic = categorical(&theta, &mut rng);
+            doc.push(categorical(&topics[topic], &mut rng) as u32);
+            assignments.push(topic as u32);
+        }
+        docs.push(doc);
+        shares.push(theta);
+    }
+    let names: Vec<String> = ["river", "stream", "bank", "money", "loan"]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+    let mut word_counts = vec![0u64; 5];
+    let mut doc_counts = vec![0u32; 5];
+    for doc in &docs {
+        let mut seen = [false; 5];
+        for &w in doc {
+            word_counts[w as usize] += 1;
+            if !std::mem::replace(&mut seen[w as usize], true) {
+                doc_counts[w as usize] += 1;
+            }
+        }
+    }
+    Synthetic {
+        corpus: Corpus::from_documents(Vocabulary::from_parts(names, word_counts, doc_counts), docs),
+        topics,
+        shares,
+        assignments,
+    }
+}
+
+/// Random topics over `n_words` words with Zipf-like overall word
+/// frequencies: each topic is Dirichlet(`beta` * Zipf weights * V).
+pub fn zipf_topics(n_topics: usize, n_words: usize, beta: f64, seed: u64) -> Vec<Vec<f64>> {
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed ^ 0x9e37_79b9_7f4a_7c15);
+    let harmonic: f64 = (1..=n_words).map(|r| 1.0 / r as f64).sum();
+    let base: Vec<f64> = (1..=n_words)
+        .map(|rank| (beta * n_words as f64 * (1.0 / rank as f64) / harmonic).max(1e-3))
+        .collect();
+    (0..n_topics).map(|_| dirichlet(&base, &mut rng)).collect()
+}

@@ -1,0 +1,421 @@
+//! The command line: each command's happy path, the contract downstream
+//! tooling reads, and bad inputs with their exit codes.
+
+use predicates::prelude::*;
+use serde_json::Value;
+
+use crate::util::{Scratch, themata};
+
+/// Exit codes documented in the README.
+const BAD_INPUT: i32 = 2;
+const FAILURE: i32 = 3;
+
+/// Three small themes in plain text files.
+fn text_folder(scratch: &Scratch) {
+    let themes = [
+        "tide quay harbour boat nets trawler catch tide quay harbour",
+        "seed soil plot beans compost allotment seed soil plot beans",
+        "bus road route timetable station driver bus road route station",
+    ];
+    for doc_idx in 0..12 {
+        let text = themes[doc_idx % 3];
+        scratch.write(&format!("docs/item-{doc_idx:02}.txt"), format!("{text} {text}"));
+    }
+}
+
+fn build_corpus(scratch: &Scratch) {
+    text_folder(scratch);
+    themata(scratch.root())
+        .args(["build", "docs", "--out", "corpus.bin", "--min-docs", "1"])
+        .assert()
+        .success();
+}
+
+fn fit_model(scratch: &Scratch) {
+    build_corpus(scratch);
+    themata(scratch.root())
+        .args([
+            "fit",
+            "corpus.bin",
+            "--topics",
+            "3",
+            "--out",
+            "model",
+            "--iterations",
+            "60",
+        ])
+        .args(["--burn-in", "10", "--seed", "4", "--quiet"])
+        .assert()
+        .success();
+}
+
+fn read_json(path: &std::path::Path) -> Value {
+    serde_json::from_slice(&std::fs::read(path).unwrap()).unwrap()
+}
+
+#[test]
+fn build_prints_a_summary_and_writes_a_corpus() {
+    let scratch = Scratch::new();
+    text_folder(&scratch);
+    scratch.write("docs/blank.txt", "   \n");
+    themata(scratch.root())
+        .args(["build", "docs", "--out", "corpus.bin", "--min-docs", "1"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains(
+            "documents: 13 read, 12 kept, 1 skipped (empty 1)",
+        ))
+        .stderr(predicate::str::contains("blank.txt"));
+    assert!(scratch.path("corpus.bin").is_file());
+}
+
+#[test]
+fn build_keeps_every_word_token_when_asked() {
+    // Source: Unicode UAX #29 word boundaries — "Ünïcode-text, 42 x's!" has
+    // the words Ünïcode, text, 42, x's; numbers are dropped by default, so
+    // three word tokens remain.
+    let scratch = Scratch::new();
+    scratch.write("one.jsonl", "{\"id\":\"a\",\"text\":\"Ünïcode-text, 42 x's!\"}\n");
+    themata(scratch.root())
+        .args([
+            "build",
+            "one.jsonl",
+            "--out",
+            "c.bin",
+            "--stopwords",
+            "none",
+            "--min-length",
+            "1",
+        ])
+        .args(["--min-docs", "1", "--max-doc-share", "1"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("tokens: 3 kept of 3"));
+}
+
+#[test]
+fn build_refuses_bad_inputs() {
+    let scratch = Scratch::new();
+    themata(scratch.root())
+        .args(["build", "nowhere.txt", "--out", "c.bin"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("nowhere.txt"));
+    scratch.write("notes.xyz", "some words here");
+    themata(scratch.root())
+        .args(["build", "notes.xyz", "--out", "c.bin"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("--format"));
+    scratch.write("empty/a.txt", "");
+    scratch.write("empty/b.txt", "the and of");
+    themata(scratch.root())
+        .args(["build", "empty", "--out", "c.bin"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("no document has any words left"));
+    scratch.write("bad.csv", "id,body\n1,harbour tide\n");
+    themata(scratch.root())
+        .args(["build", "bad.csv", "--out", "c.bin"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("text"));
+    assert!(!scratch.path("c.bin").exists(), "no output after a failed build");
+}
+
+#[test]
+fn build_strict_turns_skips_into_failure() {
+    let scratch = Scratch::new();
+    text_folder(&scratch);
+    scratch.write("docs/bad.txt", b"harbour \xff\xfe tide");
+    themata(scratch.root())
+        .args(["build", "docs", "--out", "c.bin", "--min-docs", "1", "--strict"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("bad.txt").and(predicate::str::contains("--strict")));
+    assert!(!scratch.path("c.bin").exists());
+}
+
+#[test]
+fn build_reports_unwritable_output_as_io_failure() {
+    let scratch = Scratch::new();
+    text_folder(&scratch);
+    themata(scratch.root())
+        .args([
+            "build",
+            "docs",
+            "--out",
+            "missing/folder/c.bin",
+            "--min-docs",
+            "1",
+        ])
+        .assert()
+        .code(FAILURE)
+        .stderr(predicate::str::contains("missing/folder/c.bin"));
+}
+
+#[test]
+fn build_reads_json_lines_from_stdin() {
+    let scratch = Scratch::new();
+    let lines: String = (0..6)
+        .map(|i| format!("{{\"id\":\"n{i}\",\"text\":\"harbour tide quay number {i}\"}}\n"))
+        .collect();
+    themata(scratch.root())
+        .args([
+            "build",
+            "-",
+            "--out",
+            "c.bin",
+            "--min-docs",
+            "1",
+            "--max-doc-share",
+            "1",
+        ])
+        .write_stdin(lines)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("6 kept"));
+}
+
+#[test]
+fn fit_writes_model_and_summary_contract() {
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let summary = read_json(&scratch.path("model/summary.json"));
+    for key in [
+        "format_version",
+        "documents",
+        "tokens",
+        "vocabulary",
+        "topics",
+        "iterations",
+        "seed",
+        "threads",
+        "alpha",
+        "beta",
+        "sampling_seconds",
+        "tokens_per_second",
+        "log_likelihood",
+        "log_likelihood_trace",
+    ] {
+        assert!(summary.get(key).is_some(), "summary.json lacks {key}: {summary}");
+    }
+    assert_eq!(summary["documents"], 12);
+    assert_eq!(summary["topics"], 3);
+    assert_eq!(summary["iterations"], 60);
+    assert_eq!(summary["alpha"].as_array().unwrap().len(), 3);
+    let trace = summary["log_likelihood_trace"].as_array().unwrap();
+    assert_eq!(trace.last().unwrap()[0], 60);
+    assert_eq!(trace.last().unwrap()[1], summary["log_likelihood"]);
+}
+
+#[test]
+fn fit_refuses_bad_inputs() {
+    let scratch = Scratch::new();
+    build_corpus(&scratch);
+    themata(scratch.root())
+        .args(["fit", "corpus.bin", "--topics", "0", "--out", "m"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("topics"));
+    themata(scratch.root())
+        .args(["fit", "corpus.bin", "--topics", "100000", "--out", "m"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("more than the"));
+    themata(scratch.root())
+        .args(["fit", "absent.bin", "--topics", "3", "--out", "m"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("absent.bin"));
+    let mut damaged = std::fs::read(scratch.path("corpus.bin")).unwrap();
+    let middle = damaged.len() / 2;
+    damaged[middle] ^= 0xff;
+    scratch.write("damaged.bin", damaged);
+    themata(scratch.root())
+        .args(["fit", "damaged.bin", "--topics", "3", "--out", "m"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("checksum"));
+    themata(scratch.root())
+        .args([
+            "fit",
+            "corpus.bin",
+            "--topics",
+            "3",
+            "--out",
+            "m",
+            "--alpha",
+            "0.1,0.2",
+        ])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("alpha has 2 values"));
+    scratch.write("mine/notes.txt", "keep me");
+    themata(scratch.root())
+        .args(["fit", "corpus.bin", "--topics", "3", "--out", "mine"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("not a themata output folder"));
+    assert!(scratch.path("mine/notes.txt").is_file());
+    assert!(!scratch.path("m").exists());
+}
+
+#[test]
+fn show_prints_topic_and_document_tsv_contract() {
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let output = themata(scratch.root())
+        .args(["show", "model", "--format", "tsv", "--words", "all"])
+        .output()
+        .unwrap();
+    assert!(output.status.success());
+    let text = String::from_utf8(output.stdout).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("topic\trank\tword\tweight"));
+    let mut per_topic = [0.0f64; 3];
+    for line in lines {
+        let fields: Vec<&str> = line.split('\t').collect();
+        assert_eq!(fields.len(), 4, "{line}");
+        let topic: usize = fields[0].parse().unwrap();
+        let weight: f64 = fields[3].parse().unwrap();
+        per_topic[topic] += weight;
+    }
+    // Source: common practice — phi_k is a distribution; the words a topic has
+    // tokens of carry almost all of its mass (beta = 0.01 spreads the rest).
+    for total in per_topic {
+        assert!(total > 0.9 && total <= 1.0 + 1e-9, "{per_topic:?}");
+    }
+    let output = themata(scratch.root())
+        .args(["show", "model", "--documents", "--format", "tsv"])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(output.stdout).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("document\ttopic\tshare"));
+    let rows: Vec<Vec<String>> = lines
+        .map(|l| l.split('\t').map(str::to_string).collect())
+        .collect();
+    assert_eq!(rows.len(), 12 * 3);
+    let first_doc: f64 = rows
+        .iter()
+        .filter(|r| r[0] == rows[0][0])
+        .map(|r| r[2].parse::<f64>().unwrap())
+        .sum();
+    assert!(
+        (first_doc - 1.0).abs() < 1e-9,
+        "shares of a document sum to 1, got {first_doc}"
+    );
+    themata(scratch.root())
+        .args(["show", "model", "--format", "json", "--words", "2"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("\"topics\""));
+    themata(scratch.root()).args(["show", "model"]).assert().success();
+}
+
+#[test]
+fn show_refuses_bad_inputs() {
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    themata(scratch.root())
+        .args(["show", "nothing-here"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("no model here"));
+    themata(scratch.root())
+        .args(["show", "model", "--words", "0"])
+        .assert()
+        .code(BAD_INPUT);
+    themata(scratch.root())
+        .args(["show", "model", "--format", "xml"])
+        .assert()
+        .code(BAD_INPUT);
+    scratch.write("fake/model.bin", "not a model");
+    themata(scratch.root())
+        .args(["show", "fake"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("not a themata model file"));
+}
+
+fn run_config(scratch: &Scratch, extra: &str) -> std::path::PathBuf {
+    text_folder(scratch);
+    scratch.write(
+        "run.toml",
+        format!(
+            "[input]\npaths = [\"docs\"]\n\n[vocabulary]\nmin_docs = 1\n\n[fit]\ntopics = 3\niterations = 50\nburn_in = 5\n{extra}\n[output]\ndir = \"out\"\n"
+        ),
+    )
+}
+
+#[test]
+fn run_builds_fits_and_reports() {
+    let scratch = Scratch::new();
+    run_config(&scratch, "");
+    themata(scratch.root())
+        .args(["run", "run.toml", "--quiet"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("topic").and(predicate::str::contains("harbour")));
+    for name in [
+        "corpus.bin",
+        "model.bin",
+        "summary.json",
+        "topics.tsv",
+        "documents.tsv",
+        "build.json",
+    ] {
+        assert!(scratch.path("out").join(name).is_file(), "{name} missing");
+    }
+    // Command-line values override the file.
+    themata(scratch.root())
+        .args(["run", "run.toml", "--quiet", "--topics", "2"])
+        .assert()
+        .success();
+    assert_eq!(read_json(&scratch.path("out/summary.json"))["topics"], 2);
+}
+
+#[test]
+fn run_refuses_bad_configs() {
+    let scratch = Scratch::new();
+    run_config(&scratch, "colour = \"blue\"\n");
+    themata(scratch.root())
+        .args(["run", "run.toml"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("run.toml:11:").and(predicate::str::contains("colour")));
+    run_config(&scratch, "seed = -3\n");
+    themata(scratch.root())
+        .args(["run", "run.toml"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("run.toml:11:"));
+    themata(scratch.root())
+        .args(["run", "absent.toml"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("absent.toml"));
+    run_config(&scratch, "");
+    themata(scratch.root())
+        .args(["run", "run.toml", "--topics", "0"])
+        .assert()
+        .code(BAD_INPUT);
+    assert!(!scratch.path("out").exists(), "failed runs leave no output");
+}
+
+#[test]
+fn failed_run_keeps_the_previous_output() {
+    let scratch = Scratch::new();
+    run_config(&scratch, "");
+    themata(scratch.root())
+        .args(["run", "run.toml", "--quiet"])
+        .assert()
+        .success();
+    let before = std::fs::read(scratch.path("out/model.bin")).unwrap();
+    themata(scratch.root())
+        .args(["run", "run.toml", "--quiet", "--topics", "100000"])
+        .assert()
+        .code(BAD_INPUT);
+    assert_eq!(std::fs::read(scratch.path("out/model.bin")).unwrap(), before);
+}

@@ -1,0 +1,77 @@
+//! Corpus and model files: round trips, and damaged files refused cleanly.
+
+use themata::corpus::Corpus;
+use themata::fit::{FitSettings, PriorSpec, fit};
+use themata::model::Model;
+use themata::synthetic;
+
+use crate::util::Scratch;
+
+fn small_model() -> Model {
+    let data = synthetic::two_topics(1);
+    let settings = FitSettings {
+        n_topics: 2,
+        iterations: 10,
+        burn_in: 2,
+        alpha: PriorSpec::List(vec![0.2, 0.4]),
+        beta: PriorSpec::Symmetric(0.1),
+        seed: 3,
+        trace_every: 5,
+    };
+    fit(data.corpus, &settings, &mut |_| {}).unwrap().0
+}
+
+#[test]
+fn corpus_round_trip() {
+    let scratch = Scratch::new();
+    let corpus = synthetic::bars(20, 10, 1.0, 1).corpus;
+    let path = scratch.path("c.bin");
+    corpus.save(&path).unwrap();
+    let back = Corpus::load(&path).unwrap();
+    assert_eq!(back, corpus);
+    assert_eq!(
+        back.vocabulary.id("px00"),
+        Some(corpus.vocabulary.id("px00").unwrap())
+    );
+}
+
+#[test]
+fn model_round_trip_keeps_everything() {
+    let scratch = Scratch::new();
+    let model = small_model();
+    let path = scratch.path("m.bin");
+    model.save(&path).unwrap();
+    let back = Model::load(&path).unwrap();
+    assert_eq!(back.state, model.state);
+    assert_eq!(back.priors, model.priors);
+    assert_eq!(back.trace, model.trace);
+    assert_eq!(back.rng, model.rng);
+    assert_eq!(back.encode(&path).unwrap(), model.encode(&path).unwrap());
+}
+
+#[test]
+fn damaged_model_files_are_refused_not_panicked_on() {
+    // Source: common practice — CRC-32 detects every single-bit error; the
+    // header is checked before decoding.
+    let scratch = Scratch::new();
+    let model = small_model();
+    let path = scratch.path("m.bin");
+    let bytes = model.encode(&path).unwrap();
+    for index in (0..bytes.len()).step_by(7) {
+        let mut damaged = bytes.clone();
+        damaged[index] ^= 0x01;
+        std::fs::write(&path, &damaged).unwrap();
+        let err = Model::load(&path)
+            .err()
+            .unwrap_or_else(|| panic!("flip at {index} accepted"));
+        assert!(err.to_string().contains("m.bin"), "{err}");
+    }
+    for cut in [0, 5, 23, 24, bytes.len() / 2, bytes.len() - 1] {
+        std::fs::write(&path, &bytes[..cut]).unwrap();
+        assert!(Model::load(&path).is_err(), "cut at {cut} accepted");
+    }
+    let corpus_path = scratch.path("c.bin");
+    model.corpus.save(&corpus_path).unwrap();
+    let err = Model::load(&corpus_path).err().unwrap();
+    assert!(err.to_string().contains("not a themata model file"), "{err}");
+}
