@@ -1,8 +1,11 @@
 //! Fitting: checks the fit settings against the corpus, initialises the
-//! sampler state from the seed, runs the sweeps, records the log-likelihood
-//! trace and returns the model. Reports progress through a callback and does
+//! sampler state from the seed, runs the sweeps, learns the priors when asked
+//! (Minka's fixed point with Wallach's histograms, after burn-in), records
+//! the log-likelihood and prior traces, keeps posterior samples, and judges
+//! convergence. Reports progress and checkpoints through callbacks and does
 //! no I/O of its own.
 
+use std::ops::ControlFlow;
 use std::time::Instant;
 
 use rand::SeedableRng;
@@ -10,33 +13,82 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use crate::corpus::Corpus;
-use crate::model::Model;
+use crate::model::{Model, Sample};
+use crate::priors::{self, CountHistogram, LearnSettings};
 use crate::sampler::{self, BetaPrior, CountState, Priors};
 
-/// A prior given by the user: one value for all, or one value per entry.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-#[serde(untagged)]
+/// A prior given by the user: one value for all, one value per entry, or
+/// learned from the data.
+#[derive(Clone, Debug, PartialEq)]
 pub enum PriorSpec {
     /// The same value everywhere.
     Symmetric(f64),
     /// One value per topic (alpha) or per word (beta).
     List(Vec<f64>),
+    /// Learned from the data, starting from the default value.
+    Learn,
 }
 
 impl std::str::FromStr for PriorSpec {
     type Err = String;
 
-    /// Parses `X` or `X,Y,...`.
+    /// Parses `learn`, `X` or `X,Y,...`.
     fn from_str(text: &str) -> Result<PriorSpec, String> {
+        if text.trim().eq_ignore_ascii_case("learn") {
+            return Ok(PriorSpec::Learn);
+        }
         let values: Result<Vec<f64>, _> = text.split(',').map(|part| part.trim().parse::<f64>()).collect();
         match values {
             Ok(values) if values.len() == 1 => Ok(PriorSpec::Symmetric(values[0])),
             Ok(values) => Ok(PriorSpec::List(values)),
             Err(_) => Err(format!(
-                "`{text}` is not a number or a comma-separated list of numbers"
+                "`{text}` is not `learn`, a number or a comma-separated list of numbers"
             )),
         }
     }
+}
+
+impl<'de> Deserialize<'de> for PriorSpec {
+    /// Accepts a number, a list of numbers, or a string as for `FromStr`.
+    fn deserialize<D: serde::Deserializer<'de>>(deserializer: D) -> Result<PriorSpec, D::Error> {
+        #[derive(Deserialize)]
+        #[serde(untagged)]
+        enum Raw {
+            Number(f64),
+            List(Vec<f64>),
+            Text(String),
+        }
+        match Raw::deserialize(deserializer)? {
+            Raw::Number(value) => Ok(PriorSpec::Symmetric(value)),
+            Raw::List(values) => Ok(PriorSpec::List(values)),
+            Raw::Text(text) => text.parse().map_err(serde::de::Error::custom),
+        }
+    }
+}
+
+/// Starting value of a learned alpha (per topic) and a learned beta.
+pub const LEARN_START_ALPHA: f64 = 0.1;
+/// Starting value of a learned beta.
+pub const LEARN_START_BETA: f64 = 0.01;
+
+/// The part of the fit settings that governs sweeps after the start; stored
+/// in the model so that continuing and resuming follow the same plan.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Schedule {
+    /// Sweeps before samples are kept and priors learned.
+    pub burn_in: u64,
+    /// Learn alpha (asymmetric) from the data.
+    pub learn_alpha: bool,
+    /// Learn beta (symmetric) from the data.
+    pub learn_beta: bool,
+    /// Learn the priors every this many sweeps after burn-in.
+    pub learn_every: u64,
+    /// Posterior samples kept at the end of the run.
+    pub samples: u64,
+    /// Sweeps between kept samples.
+    pub lag: u64,
+    /// Record the log-likelihood every this many sweeps.
+    pub trace_every: u64,
 }
 
 /// Resolved fit settings.
@@ -47,8 +99,30 @@ pub struct FitSettings {
     pub burn_in: u64,
     pub alpha: PriorSpec,
     pub beta: PriorSpec,
+    pub learn_every: u64,
+    pub samples: u64,
+    pub lag: u64,
     pub seed: u64,
     pub trace_every: u64,
+}
+
+impl FitSettings {
+    /// Settings with fixed priors, one sample and no learning: the plain
+    /// sampler as in the worked examples.
+    pub fn fixed(n_topics: usize, iterations: u64, alpha: f64, beta: f64, seed: u64) -> FitSettings {
+        FitSettings {
+            n_topics,
+            iterations,
+            burn_in: iterations / 2,
+            alpha: PriorSpec::Symmetric(alpha),
+            beta: PriorSpec::Symmetric(beta),
+            learn_every: 10,
+            samples: 1,
+            lag: 1,
+            seed,
+            trace_every: 10,
+        }
+    }
 }
 
 /// Settings that cannot work with the corpus given.
@@ -62,6 +136,17 @@ pub enum FitError {
     NoIterations,
     #[error("burn-in ({burn_in}) must be smaller than the number of iterations ({iterations})")]
     BurnInTooLong { burn_in: u64, iterations: u64 },
+    #[error(
+        "{samples} samples {lag} sweeps apart need {needed} sweeps after burn-in, but only {available} remain; lower --samples or --lag, or raise --iterations"
+    )]
+    SamplesDoNotFit {
+        samples: u64,
+        lag: u64,
+        needed: u64,
+        available: u64,
+    },
+    #[error("{name} must be at least 1")]
+    ZeroSetting { name: &'static str },
     #[error("{name} has {found} values but needs 1 or {expected} (one per {per})")]
     PriorLength {
         name: &'static str,
@@ -71,8 +156,12 @@ pub enum FitError {
     },
     #[error("{name} values must be positive and finite (got {value})")]
     PriorValue { name: &'static str, value: f64 },
+    #[error("beta can be learned only as a symmetric prior; this model has one beta per word")]
+    AsymmetricBetaLearning,
     #[error("the corpus has no tokens")]
     EmptyCorpus,
+    #[error("learning the priors failed: {0}")]
+    Learning(#[from] crate::priors::PriorError),
 }
 
 /// What the caller is told while fitting.
@@ -89,7 +178,7 @@ pub enum FitEvent {
 /// Timing of the sampling phase.
 #[derive(Clone, Copy, Debug, Default)]
 pub struct FitTiming {
-    /// Wall-clock seconds spent in sweeps (log-likelihood evaluation excluded).
+    /// Wall-clock seconds spent in sweeps (likelihood and learning excluded).
     pub sampling_seconds: f64,
     /// Token updates performed.
     pub token_updates: u64,
@@ -106,13 +195,22 @@ impl FitTiming {
     }
 }
 
-fn check_prior(
+fn check_values(name: &'static str, values: &[f64]) -> Result<(), FitError> {
+    match values.iter().find(|value| !(value.is_finite() && **value > 0.0)) {
+        Some(&value) => Err(FitError::PriorValue { name, value }),
+        None => Ok(()),
+    }
+}
+
+fn expand(
     name: &'static str,
     spec: &PriorSpec,
     expected: usize,
     per: &'static str,
+    learn_start: f64,
 ) -> Result<Vec<f64>, FitError> {
     let values = match spec {
+        PriorSpec::Learn => vec![learn_start],
         PriorSpec::Symmetric(value) => vec![*value],
         PriorSpec::List(values) if values.len() == expected || values.len() == 1 => values.clone(),
         PriorSpec::List(values) => {
@@ -124,14 +222,33 @@ fn check_prior(
             });
         }
     };
-    if let Some(&value) = values.iter().find(|value| !(value.is_finite() && **value > 0.0)) {
-        return Err(FitError::PriorValue { name, value });
-    }
+    check_values(name, &values)?;
     Ok(values)
 }
 
-/// Checks the settings against the corpus and resolves the priors.
-pub fn resolve_priors(corpus: &Corpus, settings: &FitSettings) -> Result<Priors, FitError> {
+/// Checks the sample plan: `samples` samples `lag` apart within `available` sweeps.
+fn check_samples(samples: u64, lag: u64, available: u64) -> Result<(), FitError> {
+    if samples == 0 {
+        return Err(FitError::ZeroSetting { name: "samples" });
+    }
+    if lag == 0 {
+        return Err(FitError::ZeroSetting { name: "lag" });
+    }
+    let needed = (samples - 1) * lag + 1;
+    if needed > available {
+        return Err(FitError::SamplesDoNotFit {
+            samples,
+            lag,
+            needed,
+            available,
+        });
+    }
+    Ok(())
+}
+
+/// Checks the settings against the corpus and resolves the starting priors
+/// and the schedule.
+pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Schedule), FitError> {
     if settings.n_topics == 0 {
         return Err(FitError::NoTopics);
     }
@@ -153,19 +270,78 @@ pub fn resolve_priors(corpus: &Corpus, settings: &FitSettings) -> Result<Priors,
             iterations: settings.iterations,
         });
     }
-    let alpha = check_prior("alpha", &settings.alpha, settings.n_topics, "topic")?;
+    if settings.trace_every == 0 {
+        return Err(FitError::ZeroSetting { name: "trace_every" });
+    }
+    if settings.learn_every == 0 {
+        return Err(FitError::ZeroSetting { name: "learn_every" });
+    }
+    check_samples(
+        settings.samples,
+        settings.lag,
+        settings.iterations - settings.burn_in,
+    )?;
+    let alpha = expand(
+        "alpha",
+        &settings.alpha,
+        settings.n_topics,
+        "topic",
+        LEARN_START_ALPHA,
+    )?;
     let alpha = if alpha.len() == 1 {
         vec![alpha[0]; settings.n_topics]
     } else {
         alpha
     };
-    let beta = check_prior("beta", &settings.beta, corpus.vocabulary.len(), "vocabulary word")?;
+    let beta = expand(
+        "beta",
+        &settings.beta,
+        corpus.vocabulary.len(),
+        "vocabulary word",
+        LEARN_START_BETA,
+    )?;
     let beta = if beta.len() == 1 {
         BetaPrior::Symmetric(beta[0])
     } else {
         BetaPrior::Asymmetric(beta)
     };
-    Ok(Priors { alpha, beta })
+    let schedule = Schedule {
+        burn_in: settings.burn_in,
+        learn_alpha: settings.alpha == PriorSpec::Learn,
+        learn_beta: settings.beta == PriorSpec::Learn,
+        learn_every: settings.learn_every,
+        samples: settings.samples,
+        lag: settings.lag,
+        trace_every: settings.trace_every,
+    };
+    Ok((Priors { alpha, beta }, schedule))
+}
+
+/// Starts a model: random initial assignments from the seed, traces at
+/// iteration 0, the run target set to `settings.iterations`.
+pub fn start(corpus: Corpus, settings: &FitSettings) -> Result<Model, FitError> {
+    let (priors, schedule) = resolve(&corpus, settings)?;
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(settings.seed);
+    let state = CountState::random(&corpus, settings.n_topics, &mut rng);
+    let initial = sampler::log_likelihood(&state, &corpus, &priors).total();
+    let beta_trace = match &priors.beta {
+        BetaPrior::Symmetric(value) => vec![(0, *value)],
+        BetaPrior::Asymmetric(_) => Vec::new(),
+    };
+    Ok(Model {
+        corpus,
+        alpha_trace: vec![(0, priors.alpha.clone())],
+        beta_trace,
+        priors,
+        state,
+        iterations_done: 0,
+        target: settings.iterations,
+        schedule,
+        seed: settings.seed,
+        rng,
+        trace: vec![(0, initial)],
+        samples: Vec::new(),
+    })
 }
 
 /// Fits a model to `corpus` from scratch.
@@ -174,54 +350,147 @@ pub fn fit(
     settings: &FitSettings,
     observer: &mut dyn FnMut(FitEvent),
 ) -> Result<(Model, FitTiming), FitError> {
-    let priors = resolve_priors(&corpus, settings)?;
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(settings.seed);
-    let state = CountState::random(&corpus, settings.n_topics, &mut rng);
-    let initial = sampler::log_likelihood(&state, &corpus, &priors).total();
-    let mut model = Model {
-        corpus,
-        priors,
-        state,
-        iterations_done: 0,
-        burn_in: settings.burn_in,
-        seed: settings.seed,
-        rng,
-        trace: vec![(0, initial)],
-    };
-    let timing = run_sweeps(&mut model, settings.iterations, settings.trace_every, observer);
+    let mut model = start(corpus, settings)?;
+    let timing = run_to_target(&mut model, observer, &mut |_| ControlFlow::Continue(()))?;
     Ok((model, timing))
 }
 
-/// Runs `sweeps` more sweeps on `model`, recording the log-likelihood every
-/// `trace_every` sweeps and after the last one.
-pub fn run_sweeps(
+/// Prepares a fitted model for `sweeps` more sweeps: moves the target on and
+/// starts a fresh set of samples within the new sweeps.
+pub fn extend(model: &mut Model, sweeps: u64) -> Result<(), FitError> {
+    if sweeps == 0 {
+        return Err(FitError::NoIterations);
+    }
+    check_samples(model.schedule.samples, model.schedule.lag, sweeps)?;
+    model.target = model.iterations_done + sweeps;
+    model.samples.clear();
+    Ok(())
+}
+
+/// Is `iteration` one of the kept-sample iterations of a run ending at `target`?
+fn is_sample_iteration(schedule: &Schedule, iteration: u64, target: u64) -> bool {
+    iteration <= target
+        && (target - iteration).is_multiple_of(schedule.lag)
+        && (target - iteration) / schedule.lag < schedule.samples
+}
+
+/// Runs sweeps until the model reaches its target. After each sweep, in this
+/// order: learn the priors if due, record the trace if due, keep a sample if
+/// due, then hand the model to `checkpoint` (which may save it, or stop the
+/// run by breaking). The order is part of the format: a model resumed from
+/// any checkpoint ends identical to one never interrupted.
+pub fn run_to_target(
     model: &mut Model,
-    sweeps: u64,
-    trace_every: u64,
     observer: &mut dyn FnMut(FitEvent),
-) -> FitTiming {
+    checkpoint: &mut dyn FnMut(&Model) -> ControlFlow<()>,
+) -> Result<FitTiming, FitError> {
     let mut timing = FitTiming::default();
-    let target = model.iterations_done + sweeps;
-    let trace_every = trace_every.max(1);
-    while model.iterations_done < target {
+    let learn = LearnSettings::default();
+    let doc_lengths = CountHistogram::from_counts(
+        (0..model.corpus.n_docs()).map(|d| (model.corpus.offsets[d + 1] - model.corpus.offsets[d]) as u32),
+    );
+    while model.iterations_done < model.target {
         let started = Instant::now();
         sampler::sweep_reference(&mut model.state, &model.corpus, &model.priors, &mut model.rng);
         timing.sampling_seconds += started.elapsed().as_secs_f64();
         timing.token_updates += model.corpus.n_tokens() as u64;
         model.iterations_done += 1;
         let done = model.iterations_done;
-        let log_likelihood = if done.is_multiple_of(trace_every) || done == target {
+        let schedule = model.schedule.clone();
+
+        if done > schedule.burn_in && (done - schedule.burn_in).is_multiple_of(schedule.learn_every) {
+            if schedule.learn_alpha {
+                let per_topic: Vec<CountHistogram> = (0..model.state.n_topics)
+                    .map(|k| {
+                        CountHistogram::from_counts(
+                            (0..model.corpus.n_docs()).map(|d| model.state.doc_topic_count(d, k)),
+                        )
+                    })
+                    .collect();
+                model.priors.alpha =
+                    priors::learn_alpha(&model.priors.alpha, &per_topic, &doc_lengths, &learn)?;
+                model.alpha_trace.push((done, model.priors.alpha.clone()));
+            }
+            if schedule.learn_beta
+                && let BetaPrior::Symmetric(beta) = model.priors.beta
+            {
+                let word_topic = CountHistogram::from_counts(model.state.word_topic.iter().copied());
+                let totals = CountHistogram::from_counts(model.state.topic_totals.iter().map(|&n| n as u32));
+                let learned =
+                    priors::learn_symmetric_beta(beta, model.state.n_words, &word_topic, &totals, &learn)?;
+                model.priors.beta = BetaPrior::Symmetric(learned);
+                model.beta_trace.push((done, learned));
+            }
+        }
+
+        let log_likelihood = if done.is_multiple_of(model.schedule.trace_every) || done == model.target {
             let value = sampler::log_likelihood(&model.state, &model.corpus, &model.priors).total();
             model.trace.push((done, value));
             Some(value)
         } else {
             None
         };
+        if is_sample_iteration(&model.schedule, done, model.target) {
+            let sample = Sample::of(model, done);
+            model.samples.push(sample);
+        }
         observer(FitEvent::Sweep {
             done,
-            total: target,
+            total: model.target,
             log_likelihood,
         });
+        if checkpoint(model).is_break() {
+            break;
+        }
     }
-    timing
+    Ok(timing)
+}
+
+/// A convergence judgement from the log-likelihood trace.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Convergence {
+    /// How the judgement is made.
+    pub method: &'static str,
+    /// Relative change of the mean log-likelihood between the first and the
+    /// second half of the trace points after burn-in; `None` when fewer than
+    /// four points were recorded after burn-in.
+    pub relative_change: Option<f64>,
+    /// The largest relative change still called converged.
+    pub threshold: f64,
+    /// Whether the run looks converged.
+    pub converged: bool,
+}
+
+/// Relative change below which the trace counts as levelled off.
+pub const CONVERGENCE_THRESHOLD: f64 = 1e-3;
+
+/// Judges convergence by comparing the mean log-likelihood of the two halves
+/// of the post-burn-in trace (common practice: a chain that has reached its
+/// stationary distribution shows no drift between halves).
+pub fn convergence(model: &Model) -> Convergence {
+    let points: Vec<f64> = model
+        .trace
+        .iter()
+        .filter(|(iteration, _)| *iteration > model.schedule.burn_in)
+        .map(|&(_, value)| value)
+        .collect();
+    let method = "relative change of the mean log-likelihood between the halves of the post-burn-in trace";
+    if points.len() < 4 {
+        return Convergence {
+            method,
+            relative_change: None,
+            threshold: CONVERGENCE_THRESHOLD,
+            converged: false,
+        };
+    }
+    let half = points.len() / 2;
+    let mean = |values: &[f64]| values.iter().sum::<f64>() / values.len() as f64;
+    let (first, second) = (mean(&points[..half]), mean(&points[half..]));
+    let change = (second - first) / second.abs().max(f64::MIN_POSITIVE);
+    Convergence {
+        method,
+        relative_change: Some(change),
+        threshold: CONVERGENCE_THRESHOLD,
+        converged: change.abs() < CONVERGENCE_THRESHOLD,
+    }
 }

@@ -19,27 +19,27 @@
 //!     vec![vec![0, 1, 0, 1], vec![2, 3, 2, 3], vec![0, 1, 0, 1], vec![2, 3, 2, 3]],
 //! );
 //! let settings = FitSettings {
-//!     n_topics: 2,
-//!     iterations: 50,
-//!     burn_in: 10,
-//!     alpha: PriorSpec::Symmetric(0.1),
-//!     beta: PriorSpec::Symmetric(0.01),
-//!     seed: 1,
-//!     trace_every: 10,
+//!     alpha: PriorSpec::Learn,
+//!     ..FitSettings::fixed(2, 50, 0.1, 0.01, 1)
 //! };
 //! let (model, _timing) = fit(corpus, &settings, &mut |_| {}).unwrap();
 //! assert_eq!(model.n_topics(), 2);
 //! ```
 
+pub mod coherence;
 pub mod compare;
 pub mod corpus;
 pub mod fit;
 pub mod format;
+pub mod heldout;
 pub mod model;
+pub mod priors;
 pub mod read;
 pub mod report;
 pub mod sampler;
+pub mod score;
 pub mod settings;
 pub mod synthetic;
 pub mod tokenize;
+pub mod uncertainty;
 pub mod vocab;

@@ -1,8 +1,10 @@
 //! A fitted model: the training corpus, the priors, every token's topic and
-//! the counts they imply, plus what is needed to continue sampling. Also the
-//! point estimates read from it (topic-word and document-topic shares).
+//! the counts they imply, the posterior samples kept at the end of the run,
+//! the traces, and what is needed to continue sampling. Also the estimates
+//! read from it: topic-word and document-topic shares averaged over the
+//! samples, with credible intervals from their Dirichlet posteriors.
 //!
-//! **Invariant:** the in-memory [`Model`] and the on-disk [`ModelFile`] are
+//! **Invariant:** the in-memory [`Model`] and the on-disk `ModelFile` are
 //! separate types; sampler internals are not serialized directly.
 
 use std::path::Path;
@@ -11,49 +13,123 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use crate::corpus::Corpus;
+use crate::fit::Schedule;
 use crate::format::{self, FileKind, FormatError};
-use crate::sampler::{CountState, Priors};
+use crate::sampler::{BetaPrior, CountState, Priors};
+use crate::uncertainty::{self, Interval, UncertaintyError};
+
+/// Sparse rows of counts: for each row, `(column, count)` pairs with count > 0,
+/// columns increasing.
+pub type SparseRows = Vec<Vec<(u32, u32)>>;
+
+/// One posterior sample kept for the estimates.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Sample {
+    /// The sweep after which it was taken.
+    pub iteration: u64,
+    /// The priors at that sweep.
+    pub priors: Priors,
+    /// Per topic: (word, tokens of that word in the topic).
+    pub topic_word: SparseRows,
+    /// Per document: (topic, tokens of the document in the topic).
+    pub doc_topic: SparseRows,
+    /// Tokens per topic.
+    pub topic_totals: Vec<u64>,
+}
+
+impl Sample {
+    /// The sample of `model`'s current state.
+    pub fn of(model: &Model, iteration: u64) -> Sample {
+        let (topic_word, doc_topic) = sparse_counts(&model.state, model.corpus.n_docs());
+        Sample {
+            iteration,
+            priors: model.priors.clone(),
+            topic_word,
+            doc_topic,
+            topic_totals: model.state.topic_totals.clone(),
+        }
+    }
+
+    fn count(row: &[(u32, u32)], column: usize) -> u32 {
+        row.binary_search_by_key(&(column as u32), |&(c, _)| c)
+            .map_or(0, |idx| row[idx].1)
+    }
+}
 
 /// A fitted model in memory.
 #[derive(Clone, Debug)]
 pub struct Model {
     /// The training corpus (with vocabulary and tokenizer settings).
     pub corpus: Corpus,
-    /// The priors the model was fitted with.
+    /// The priors now (learned priors change during fitting).
     pub priors: Priors,
-    /// Assignments and counts.
+    /// Assignments and counts now.
     pub state: CountState,
     /// Sweeps done so far.
     pub iterations_done: u64,
-    /// Burn-in sweeps of the run that produced the model.
-    pub burn_in: u64,
+    /// Sweep count at which the current run ends.
+    pub target: u64,
+    /// Burn-in, learning, sampling and trace plan.
+    pub schedule: Schedule,
     /// The seed the run started from.
     pub seed: u64,
     /// The random stream, where the last sweep left it.
     pub rng: Xoshiro256PlusPlus,
     /// `(iteration, log p(w, z))` pairs recorded during fitting.
     pub trace: Vec<(u64, f64)>,
+    /// `(iteration, alpha)` at the start and after each learning step.
+    pub alpha_trace: Vec<(u64, Vec<f64>)>,
+    /// `(iteration, beta)` for a symmetric beta, at the start and after each learning step.
+    pub beta_trace: Vec<(u64, f64)>,
+    /// Posterior samples of the current run (the last one is the final state).
+    pub samples: Vec<Sample>,
 }
 
-/// Sparse rows of counts: for each row, `(column, count)` pairs with count > 0.
-type SparseRows = Vec<Vec<(u32, u32)>>;
-
-/// The on-disk shape of a model file.
+/// The on-disk shape of a model file (format version 1).
 #[derive(Serialize, Deserialize)]
 struct ModelFile {
     corpus: Corpus,
     n_topics: u32,
     priors: Priors,
     assignments: Vec<u32>,
-    /// Per topic: (word, tokens of that word in the topic).
+    /// Per topic: (word, tokens of that word in the topic) for the current state.
     topic_word: SparseRows,
-    /// Per document: (topic, tokens of the document in the topic).
+    /// Per document: (topic, tokens of the document in the topic) for the current state.
     doc_topic: SparseRows,
     iterations_done: u64,
-    burn_in: u64,
+    target: u64,
+    schedule: Schedule,
     seed: u64,
     rng: Xoshiro256PlusPlus,
     trace: Vec<(u64, f64)>,
+    alpha_trace: Vec<(u64, Vec<f64>)>,
+    beta_trace: Vec<(u64, f64)>,
+    samples: Vec<Sample>,
+}
+
+/// The topic-word and document-topic counts of a state as sparse rows.
+fn sparse_counts(state: &CountState, n_docs: usize) -> (SparseRows, SparseRows) {
+    let n_topics = state.n_topics;
+    let mut topic_word: SparseRows = vec![Vec::new(); n_topics];
+    for word_idx in 0..state.n_words {
+        for (topic_idx, row) in topic_word.iter_mut().enumerate() {
+            let count = state.word_topic_count(word_idx, topic_idx);
+            if count > 0 {
+                row.push((word_idx as u32, count));
+            }
+        }
+    }
+    let doc_topic = (0..n_docs)
+        .map(|doc_idx| {
+            (0..n_topics)
+                .filter_map(|topic_idx| {
+                    let count = state.doc_topic_count(doc_idx, topic_idx);
+                    (count > 0).then_some((topic_idx as u32, count))
+                })
+                .collect()
+        })
+        .collect();
+    (topic_word, doc_topic)
 }
 
 impl Model {
@@ -62,44 +138,137 @@ impl Model {
         self.state.n_topics
     }
 
-    /// Topic-word share `phi_kw = (n_kw + beta_w) / (n_k + b0)`.
-    pub fn topic_word_share(&self, topic_idx: usize, word_idx: usize) -> f64 {
-        let beta_sum = self.priors.beta_sum(self.state.n_words);
-        (f64::from(self.state.word_topic_count(word_idx, topic_idx)) + self.priors.beta_of(word_idx))
-            / (self.state.topic_totals[topic_idx] as f64 + beta_sum)
+    /// Runs `f` on the samples the estimates average: the kept samples, or
+    /// the current state when none were kept yet.
+    fn with_samples<T>(&self, f: impl FnOnce(&[Sample]) -> T) -> T {
+        if self.samples.is_empty() {
+            f(&[Sample::of(self, self.iterations_done)])
+        } else {
+            f(&self.samples)
+        }
     }
 
-    /// Document-topic shares `theta_dk = (n_dk + alpha_k) / (n_d + a0)` of one document.
-    pub fn doc_topic_shares(&self, doc_idx: usize) -> Vec<f64> {
-        let doc_len = (self.corpus.offsets[doc_idx + 1] - self.corpus.offsets[doc_idx]) as f64;
-        let denominator = doc_len + self.priors.alpha_sum();
-        (0..self.n_topics())
-            .map(|topic_idx| {
-                (f64::from(self.state.doc_topic_count(doc_idx, topic_idx)) + self.priors.alpha[topic_idx])
-                    / denominator
-            })
-            .collect()
+    /// Length of document `doc_idx` in tokens.
+    pub fn doc_len(&self, doc_idx: usize) -> u64 {
+        self.corpus.offsets[doc_idx + 1] - self.corpus.offsets[doc_idx]
     }
 
-    /// Share of all tokens assigned to each topic.
-    pub fn topic_token_shares(&self) -> Vec<f64> {
-        let total = self.corpus.n_tokens().max(1) as f64;
-        self.state
-            .topic_totals
-            .iter()
-            .map(|&n| n as f64 / total)
-            .collect()
+    /// Topic `topic_idx`'s word distribution, `phi_kw = (n_kw + beta_w) / (n_k + b0)`
+    /// averaged over the samples, for every word.
+    pub fn topic_word_row(&self, topic_idx: usize) -> Vec<f64> {
+        let n_words = self.state.n_words;
+        self.with_samples(|samples| {
+            let mut row = vec![0.0; n_words];
+            let weight = 1.0 / samples.len() as f64;
+            for sample in samples {
+                let denominator = sample.topic_totals[topic_idx] as f64 + sample.priors.beta_sum(n_words);
+                for (word_idx, value) in row.iter_mut().enumerate() {
+                    *value += weight * sample.priors.beta_of(word_idx) / denominator;
+                }
+                for &(word, count) in &sample.topic_word[topic_idx] {
+                    row[word as usize] += weight * f64::from(count) / denominator;
+                }
+            }
+            row
+        })
     }
 
     /// The full topic-word matrix `phi` (K rows of V).
     pub fn topic_word_matrix(&self) -> Vec<Vec<f64>> {
-        (0..self.n_topics())
-            .map(|topic_idx| {
-                (0..self.state.n_words)
-                    .map(|word_idx| self.topic_word_share(topic_idx, word_idx))
-                    .collect()
-            })
-            .collect()
+        (0..self.n_topics()).map(|k| self.topic_word_row(k)).collect()
+    }
+
+    /// Credible interval at `level` of `phi_kw`, from the Beta marginals of
+    /// the Dirichlet posterior of topic `topic_idx` in each sample.
+    pub fn topic_word_interval(
+        &self,
+        topic_idx: usize,
+        word_idx: usize,
+        level: f64,
+    ) -> Result<Interval, UncertaintyError> {
+        let n_words = self.state.n_words;
+        self.with_samples(|samples| {
+            let components: Vec<(f64, f64)> = samples
+                .iter()
+                .map(|sample| {
+                    let count = Sample::count(&sample.topic_word[topic_idx], word_idx);
+                    (
+                        f64::from(count) + sample.priors.beta_of(word_idx),
+                        sample.topic_totals[topic_idx] as f64 + sample.priors.beta_sum(n_words),
+                    )
+                })
+                .collect();
+            uncertainty::mixture_share_interval(&components, level)
+        })
+    }
+
+    /// Document-topic shares `theta_dk = (n_dk + alpha_k) / (n_d + a0)` of one
+    /// document, averaged over the samples.
+    pub fn doc_topic_shares(&self, doc_idx: usize) -> Vec<f64> {
+        let n_topics = self.n_topics();
+        let doc_len = self.doc_len(doc_idx) as f64;
+        self.with_samples(|samples| {
+            let mut shares = vec![0.0; n_topics];
+            let weight = 1.0 / samples.len() as f64;
+            for sample in samples {
+                let denominator = doc_len + sample.priors.alpha_sum();
+                for (topic_idx, share) in shares.iter_mut().enumerate() {
+                    *share += weight * sample.priors.alpha[topic_idx] / denominator;
+                }
+                for &(topic, count) in &sample.doc_topic[doc_idx] {
+                    shares[topic as usize] += weight * f64::from(count) / denominator;
+                }
+            }
+            shares
+        })
+    }
+
+    /// Credible intervals at `level` of each topic share of a document, from
+    /// the Beta marginals of Dirichlet(alpha + n_d) in each sample (a mixture
+    /// when several samples were kept).
+    pub fn doc_topic_intervals(&self, doc_idx: usize, level: f64) -> Result<Vec<Interval>, UncertaintyError> {
+        let doc_len = self.doc_len(doc_idx) as f64;
+        self.with_samples(|samples| {
+            (0..self.n_topics())
+                .map(|topic_idx| {
+                    let components: Vec<(f64, f64)> = samples
+                        .iter()
+                        .map(|sample| {
+                            let count = Sample::count(&sample.doc_topic[doc_idx], topic_idx);
+                            (
+                                f64::from(count) + sample.priors.alpha[topic_idx],
+                                doc_len + sample.priors.alpha_sum(),
+                            )
+                        })
+                        .collect();
+                    uncertainty::mixture_share_interval(&components, level)
+                })
+                .collect()
+        })
+    }
+
+    /// Share of all tokens assigned to each topic, averaged over the samples.
+    pub fn topic_token_shares(&self) -> Vec<f64> {
+        let total = self.corpus.n_tokens().max(1) as f64;
+        let n_topics = self.n_topics();
+        self.with_samples(|samples| {
+            let mut shares = vec![0.0; n_topics];
+            for sample in samples {
+                for (share, &n) in shares.iter_mut().zip(&sample.topic_totals) {
+                    *share += n as f64 / total / samples.len() as f64;
+                }
+            }
+            shares
+        })
+    }
+
+    /// Whether the topic has any tokens of the word in any sample.
+    pub fn topic_has_word(&self, topic_idx: usize, word_idx: usize) -> bool {
+        self.with_samples(|samples| {
+            samples
+                .iter()
+                .any(|s| Sample::count(&s.topic_word[topic_idx], word_idx) > 0)
+        })
     }
 
     /// Writes the model file crash-safely.
@@ -113,7 +282,7 @@ impl Model {
     }
 
     fn to_file(&self) -> ModelFile {
-        let (topic_word, doc_topic) = self.sparse_counts();
+        let (topic_word, doc_topic) = sparse_counts(&self.state, self.corpus.n_docs());
         ModelFile {
             corpus: self.corpus.clone(),
             n_topics: self.n_topics() as u32,
@@ -122,36 +291,15 @@ impl Model {
             topic_word,
             doc_topic,
             iterations_done: self.iterations_done,
-            burn_in: self.burn_in,
+            target: self.target,
+            schedule: self.schedule.clone(),
             seed: self.seed,
             rng: self.rng.clone(),
             trace: self.trace.clone(),
+            alpha_trace: self.alpha_trace.clone(),
+            beta_trace: self.beta_trace.clone(),
+            samples: self.samples.clone(),
         }
-    }
-
-    /// The topic-word and document-topic counts as sparse rows.
-    fn sparse_counts(&self) -> (SparseRows, SparseRows) {
-        let n_topics = self.n_topics();
-        let mut topic_word: SparseRows = vec![Vec::new(); n_topics];
-        for word_idx in 0..self.state.n_words {
-            for (topic_idx, row) in topic_word.iter_mut().enumerate() {
-                let count = self.state.word_topic_count(word_idx, topic_idx);
-                if count > 0 {
-                    row.push((word_idx as u32, count));
-                }
-            }
-        }
-        let doc_topic = (0..self.corpus.n_docs())
-            .map(|doc_idx| {
-                (0..n_topics)
-                    .filter_map(|topic_idx| {
-                        let count = self.state.doc_topic_count(doc_idx, topic_idx);
-                        (count > 0).then_some((topic_idx as u32, count))
-                    })
-                    .collect()
-            })
-            .collect();
-        (topic_word, doc_topic)
     }
 
     /// Reads a model file and checks that its counts agree with its assignments.
@@ -164,28 +312,58 @@ impl Model {
             detail: detail.to_string(),
         };
         let n_topics = file.n_topics as usize;
+        let n_words = corpus.vocabulary.len();
+        let priors_fit = |priors: &Priors| {
+            priors.alpha.len() == n_topics
+                && match &priors.beta {
+                    BetaPrior::Symmetric(_) => true,
+                    BetaPrior::Asymmetric(values) => values.len() == n_words,
+                }
+        };
         if n_topics == 0
-            || file.priors.alpha.len() != n_topics
+            || !priors_fit(&file.priors)
             || file.assignments.len() != corpus.n_tokens()
             || file.assignments.iter().any(|&topic| topic as usize >= n_topics)
         {
             return Err(bad("topic assignments do not fit the model's topics and tokens"));
         }
+        let samples_fit = file.samples.iter().all(|s| {
+            priors_fit(&s.priors)
+                && s.topic_word.len() == n_topics
+                && s.doc_topic.len() == corpus.n_docs()
+                && s.topic_totals.len() == n_topics
+                && s.topic_word
+                    .iter()
+                    .flatten()
+                    .all(|&(w, _)| (w as usize) < n_words)
+                && s.doc_topic
+                    .iter()
+                    .flatten()
+                    .all(|&(k, _)| (k as usize) < n_topics)
+        });
+        if !samples_fit {
+            return Err(bad(
+                "a posterior sample does not fit the model's topics, words and documents",
+            ));
+        }
         let state = CountState::from_assignments(&corpus, n_topics, file.assignments);
-        let stored = Model {
+        let (topic_word, doc_topic) = sparse_counts(&state, corpus.n_docs());
+        if topic_word != file.topic_word || doc_topic != file.doc_topic {
+            return Err(bad("stored counts disagree with the topic assignments"));
+        }
+        Ok(Model {
             corpus,
             priors: file.priors,
             state,
             iterations_done: file.iterations_done,
-            burn_in: file.burn_in,
+            target: file.target,
+            schedule: file.schedule,
             seed: file.seed,
             rng: file.rng,
             trace: file.trace,
-        };
-        let (topic_word, doc_topic) = stored.sparse_counts();
-        if topic_word != file.topic_word || doc_topic != file.doc_topic {
-            return Err(bad("stored counts disagree with the topic assignments"));
-        }
-        Ok(stored)
+            alpha_trace: file.alpha_trace,
+            beta_trace: file.beta_trace,
+            samples: file.samples,
+        })
     }
 }

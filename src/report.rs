@@ -8,6 +8,7 @@ use serde::Serialize;
 
 use crate::model::Model;
 use crate::sampler::BetaPrior;
+use crate::uncertainty::UncertaintyError;
 
 /// How a listing is printed.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum, serde::Deserialize)]
@@ -22,11 +23,13 @@ pub enum ListingFormat {
     Json,
 }
 
-/// One word of a topic with its weight `phi_kw`.
+/// One word of a topic with its weight `phi_kw` and a credible interval.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct WeightedWord {
     pub word: String,
     pub weight: f64,
+    pub low: f64,
+    pub high: f64,
 }
 
 /// A topic as shown: its share of tokens and its words by weight.
@@ -60,20 +63,22 @@ impl std::str::FromStr for WordLimit {
     }
 }
 
-/// The topics of a model with their heaviest words.
-pub fn topic_listings(model: &Model, limit: WordLimit) -> Vec<TopicListing> {
+/// The topics of a model with their heaviest words; word intervals at `level`.
+pub fn topic_listings(
+    model: &Model,
+    limit: WordLimit,
+    level: f64,
+) -> Result<Vec<TopicListing>, UncertaintyError> {
     let shares = model.topic_token_shares();
     (0..model.n_topics())
         .map(|topic_idx| {
-            let mut words: Vec<(u32, f64)> = match limit {
-                WordLimit::All => (0..model.state.n_words)
-                    .filter(|&w| model.state.word_topic_count(w, topic_idx) > 0)
-                    .map(|w| (w as u32, model.topic_word_share(topic_idx, w)))
-                    .collect(),
-                WordLimit::Top(_) => (0..model.state.n_words)
-                    .map(|w| (w as u32, model.topic_word_share(topic_idx, w)))
-                    .collect(),
-            };
+            let row = model.topic_word_row(topic_idx);
+            let mut words: Vec<(u32, f64)> = row
+                .iter()
+                .enumerate()
+                .filter(|&(w, _)| limit != WordLimit::All || model.topic_has_word(topic_idx, w))
+                .map(|(w, &weight)| (w as u32, weight))
+                .collect();
             let by_weight = |a: &(u32, f64), b: &(u32, f64)| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0));
             if let WordLimit::Top(n) = limit
                 && words.len() > n
@@ -82,23 +87,30 @@ pub fn topic_listings(model: &Model, limit: WordLimit) -> Vec<TopicListing> {
                 words.truncate(n);
             }
             words.sort_by(by_weight);
-            TopicListing {
+            Ok(TopicListing {
                 topic: topic_idx,
                 share: shares[topic_idx],
                 words: words
                     .into_iter()
-                    .map(|(w, weight)| WeightedWord {
-                        word: model.corpus.vocabulary.word(w).to_string(),
-                        weight,
+                    .map(|(w, weight)| {
+                        let interval = model.topic_word_interval(topic_idx, w as usize, level)?;
+                        Ok(WeightedWord {
+                            word: model.corpus.vocabulary.word(w).to_string(),
+                            weight,
+                            low: interval.low,
+                            high: interval.high,
+                        })
                     })
-                    .collect(),
-            }
+                    .collect::<Result<_, UncertaintyError>>()?,
+            })
         })
         .collect()
 }
 
 /// Writes topic listings in the chosen format. TSV lines are
-/// `topic<TAB>rank<TAB>word<TAB>weight` (rank from 1).
+/// `topic<TAB>rank<TAB>word<TAB>weight` (rank from 1; this layout is a
+/// contract with downstream tools, so intervals appear in the table and JSON
+/// only).
 pub fn write_topics(out: &mut dyn Write, topics: &[TopicListing], format: ListingFormat) -> io::Result<()> {
     match format {
         ListingFormat::Tsv => {
@@ -121,12 +133,16 @@ pub fn write_topics(out: &mut dyn Write, topics: &[TopicListing], format: Listin
             writeln!(out)?;
         }
         ListingFormat::Table => {
-            writeln!(out, "{:>5}  {:>6}  words (weight)", "topic", "share")?;
+            writeln!(
+                out,
+                "{:>5}  {:>6}  words: weight [credible interval]",
+                "topic", "share"
+            )?;
             for topic in topics {
                 let words: Vec<String> = topic
                     .words
                     .iter()
-                    .map(|w| format!("{} ({:.3})", w.word, w.weight))
+                    .map(|w| format!("{} {:.3} [{:.3}-{:.3}]", w.word, w.weight, w.low, w.high))
                     .collect();
                 writeln!(
                     out,
@@ -146,27 +162,39 @@ pub fn write_topics(out: &mut dyn Write, topics: &[TopicListing], format: Listin
 pub struct DocumentListing {
     pub document: String,
     pub label: Option<String>,
+    /// Posterior mean share of each topic.
     pub shares: Vec<f64>,
+    /// Lower end of each share's credible interval.
+    pub low: Vec<f64>,
+    /// Upper end of each share's credible interval.
+    pub high: Vec<f64>,
 }
 
-/// Every training document's posterior mean topic shares.
-pub fn document_listings(model: &Model) -> Vec<DocumentListing> {
+/// Every training document's posterior mean topic shares with credible
+/// intervals at `level`.
+pub fn document_listings(model: &Model, level: f64) -> Result<Vec<DocumentListing>, UncertaintyError> {
     model
         .corpus
         .documents
         .iter()
         .enumerate()
-        .map(|(doc_idx, info)| DocumentListing {
-            document: info.id.clone(),
-            label: info.label.clone(),
-            shares: model.doc_topic_shares(doc_idx),
+        .map(|(doc_idx, info)| {
+            let intervals = model.doc_topic_intervals(doc_idx, level)?;
+            Ok(DocumentListing {
+                document: info.id.clone(),
+                label: info.label.clone(),
+                shares: model.doc_topic_shares(doc_idx),
+                low: intervals.iter().map(|i| i.low).collect(),
+                high: intervals.iter().map(|i| i.high).collect(),
+            })
         })
         .collect()
 }
 
-/// Writes document mixtures. TSV lines are `document<TAB>topic<TAB>share`,
-/// one per document and topic; the table shows each document's three
-/// largest shares.
+/// Writes document mixtures. TSV lines are
+/// `document<TAB>topic<TAB>share<TAB>low<TAB>high`, one per document and
+/// topic; the table shows each document's three largest shares with their
+/// intervals.
 pub fn write_documents(
     out: &mut dyn Write,
     documents: &[DocumentListing],
@@ -174,10 +202,14 @@ pub fn write_documents(
 ) -> io::Result<()> {
     match format {
         ListingFormat::Tsv => {
-            writeln!(out, "document\ttopic\tshare")?;
+            writeln!(out, "document\ttopic\tshare\tlow\thigh")?;
             for doc in documents {
                 for (topic, share) in doc.shares.iter().enumerate() {
-                    writeln!(out, "{}\t{}\t{}", doc.document, topic, share)?;
+                    writeln!(
+                        out,
+                        "{}\t{}\t{}\t{}\t{}",
+                        doc.document, topic, share, doc.low[topic], doc.high[topic]
+                    )?;
                 }
             }
         }
@@ -192,14 +224,18 @@ pub fn write_documents(
                 .max()
                 .unwrap_or(8)
                 .clamp(8, 40);
-            writeln!(out, "{:<width$}  largest topic shares", "document")?;
+            writeln!(
+                out,
+                "{:<width$}  largest topic shares [credible interval]",
+                "document"
+            )?;
             for doc in documents {
                 let mut order: Vec<usize> = (0..doc.shares.len()).collect();
                 order.sort_by(|&a, &b| doc.shares[b].total_cmp(&doc.shares[a]).then(a.cmp(&b)));
                 let top: Vec<String> = order
                     .iter()
                     .take(3)
-                    .map(|&k| format!("{k}: {:.2}", doc.shares[k]))
+                    .map(|&k| format!("{k}: {:.2} [{:.2}-{:.2}]", doc.shares[k], doc.low[k], doc.high[k]))
                     .collect();
                 writeln!(out, "{:<width$}  {}", doc.document, top.join("   "))?;
             }
@@ -239,6 +275,14 @@ pub struct FitSummary {
     pub tokens_per_second: f64,
     pub log_likelihood: f64,
     pub log_likelihood_trace: Vec<(u64, f64)>,
+    pub learned_alpha: bool,
+    pub learned_beta: bool,
+    pub alpha_trace: Vec<(u64, Vec<f64>)>,
+    pub beta_trace: Vec<(u64, f64)>,
+    pub samples: u64,
+    pub lag: u64,
+    pub sample_iterations: Vec<u64>,
+    pub convergence: crate::fit::Convergence,
 }
 
 /// Version of the summary.json layout.
@@ -255,7 +299,7 @@ impl FitSummary {
             vocabulary: model.corpus.vocabulary.len(),
             topics: model.n_topics(),
             iterations: model.iterations_done,
-            burn_in: model.burn_in,
+            burn_in: model.schedule.burn_in,
             seed: model.seed,
             threads,
             sampler: "reference".to_string(),
@@ -268,6 +312,14 @@ impl FitSummary {
             tokens_per_second,
             log_likelihood: model.trace.last().map_or(f64::NAN, |&(_, value)| value),
             log_likelihood_trace: model.trace.clone(),
+            learned_alpha: model.schedule.learn_alpha,
+            learned_beta: model.schedule.learn_beta,
+            alpha_trace: model.alpha_trace.clone(),
+            beta_trace: model.beta_trace.clone(),
+            samples: model.schedule.samples,
+            lag: model.schedule.lag,
+            sample_iterations: model.samples.iter().map(|s| s.iteration).collect(),
+            convergence: crate::fit::convergence(model),
         }
     }
 }

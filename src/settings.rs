@@ -271,12 +271,21 @@ pub struct FitOptions {
     /// Sweeps treated as burn-in, before the chain is taken as settled [default: 100]
     #[arg(long, value_name = "N")]
     pub burn_in: Option<u64>,
-    /// Document-topic prior: one value for every topic, or K comma-separated values [default: 0.1]
-    #[arg(long, value_name = "X|X,Y,...")]
+    /// Document-topic prior: `learn` (asymmetric, learned from the data after burn-in), one value for every topic, or K comma-separated values [default: learn]
+    #[arg(long, value_name = "learn|X|X,Y,...")]
     pub alpha: Option<PriorSpec>,
-    /// Topic-word prior: one value for every word, or one comma-separated value per vocabulary word [default: 0.01]
-    #[arg(long, value_name = "X|X,Y,...")]
+    /// Topic-word prior: `learn` (symmetric, learned from the data after burn-in), one value for every word, or one comma-separated value per vocabulary word [default: learn]
+    #[arg(long, value_name = "learn|X|X,Y,...")]
     pub beta: Option<PriorSpec>,
+    /// Learn the priors every N sweeps after burn-in [default: 10]
+    #[arg(long, value_name = "N")]
+    pub learn_every: Option<u64>,
+    /// Posterior samples kept at the end of the run; estimates and intervals average them [default: 1]
+    #[arg(long, value_name = "S")]
+    pub samples: Option<u64>,
+    /// Sweeps between kept samples [default: 10]
+    #[arg(long, value_name = "L")]
+    pub lag: Option<u64>,
     /// Seed of the random stream; the same seed and inputs give the same model [default: 1]
     #[arg(long, value_name = "S")]
     pub seed: Option<u64>,
@@ -293,6 +302,9 @@ overlay!(FitOptions {
     burn_in,
     alpha,
     beta,
+    learn_every,
+    samples,
+    lag,
     seed,
     threads,
     trace_every
@@ -337,13 +349,38 @@ impl FitOptions {
         if trace_every == 0 {
             return Err(invalid("trace_every", "must be at least 1"));
         }
+        let learn_every = self.learn_every.unwrap_or(10);
+        if learn_every == 0 {
+            return Err(invalid("learn_every", "must be at least 1"));
+        }
+        let samples = self.samples.unwrap_or(1);
+        let lag = self.lag.unwrap_or(10);
+        if samples == 0 {
+            return Err(invalid("samples", "must be at least 1"));
+        }
+        if lag == 0 {
+            return Err(invalid("lag", "must be at least 1"));
+        }
+        let needed = (samples - 1) * lag + 1;
+        if needed > iterations - burn_in {
+            return Err(invalid(
+                "samples",
+                format!(
+                    "{samples} samples {lag} sweeps apart need {needed} sweeps after burn-in, but iterations - burn_in is {}",
+                    iterations - burn_in
+                ),
+            ));
+        }
         Ok(FitPlan {
             settings: FitSettings {
                 n_topics,
                 iterations,
                 burn_in,
-                alpha: self.alpha.clone().unwrap_or(PriorSpec::Symmetric(0.1)),
-                beta: self.beta.clone().unwrap_or(PriorSpec::Symmetric(0.01)),
+                alpha: self.alpha.clone().unwrap_or(PriorSpec::Learn),
+                beta: self.beta.clone().unwrap_or(PriorSpec::Learn),
+                learn_every,
+                samples,
+                lag,
                 seed: self.seed.unwrap_or(1),
                 trace_every,
             },
@@ -409,6 +446,28 @@ fn line_of_key(text: &str, section: &str, key: &str) -> Option<usize> {
     None
 }
 
+/// Joins `relative` onto `base`, folding `.` and `name/..` pairs without
+/// touching the file system, so messages show `out` rather than `conf/../out`.
+fn lexical_join(base: &Path, relative: &Path) -> PathBuf {
+    use std::path::Component;
+    let joined = base.join(relative);
+    let mut parts: Vec<Component> = Vec::new();
+    for component in joined.components() {
+        match component {
+            Component::CurDir => {}
+            Component::ParentDir if matches!(parts.last(), Some(Component::Normal(_))) => {
+                parts.pop();
+            }
+            other => parts.push(other),
+        }
+    }
+    if parts.is_empty() {
+        PathBuf::from(".")
+    } else {
+        parts.iter().collect()
+    }
+}
+
 impl RunConfig {
     /// Reads a config file, reporting unknown keys and bad values as
     /// `file:line: what is wrong`. Relative paths are made relative to the
@@ -425,7 +484,13 @@ impl RunConfig {
         })?;
         config.validate_in_file(path, &text)?;
         let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
-        let rebase = |p: &PathBuf| if p.is_absolute() { p.clone() } else { base.join(p) };
+        let rebase = |p: &PathBuf| {
+            if p.is_absolute() {
+                p.clone()
+            } else {
+                lexical_join(&base, p)
+            }
+        };
         if let Some(paths) = &mut config.input.paths {
             for input in paths.iter_mut() {
                 if input.as_os_str() != "-" {
@@ -439,7 +504,9 @@ impl RunConfig {
         if let Some(specs) = &mut config.tokenizer.stopwords {
             for spec in specs.iter_mut() {
                 if tokenize::looks_like_path(spec) && !Path::new(spec).is_absolute() {
-                    *spec = base.join(&*spec).to_string_lossy().into_owned();
+                    *spec = lexical_join(&base, Path::new(&*spec))
+                        .to_string_lossy()
+                        .into_owned();
                 }
             }
         }
@@ -589,6 +656,7 @@ mod tests {
             "0.1,0.2".parse::<PriorSpec>().unwrap(),
             PriorSpec::List(vec![0.1, 0.2])
         );
+        assert_eq!("learn".parse::<PriorSpec>().unwrap(), PriorSpec::Learn);
         assert!("abc".parse::<PriorSpec>().is_err());
     }
 

@@ -1,13 +1,15 @@
-//! `themata fit`: corpus file in, model folder out.
+//! `themata fit`: corpus file in, model folder out; also continuing a saved
+//! model and resuming a run from its checkpoint.
 
-use std::path::Path;
+use std::ops::ControlFlow;
+use std::path::{Path, PathBuf};
 
 use themata::corpus::Corpus;
 use themata::fit::{self, FitTiming};
 use themata::format::{OUTPUT_MARKER, StagedFolder};
 use themata::model::Model;
 use themata::report::FitSummary;
-use themata::settings::FitPlan;
+use themata::settings::{FitOptions, FitPlan};
 
 use super::progress::SweepProgress;
 use super::{Failure, FitArgs};
@@ -15,36 +17,169 @@ use super::{Failure, FitArgs};
 /// The model file inside a model folder.
 pub const MODEL_FILE: &str = "model.bin";
 
+/// Where the checkpoint of a run writing `out` lives: a file beside it.
+pub fn checkpoint_path(out: &Path) -> PathBuf {
+    let name = out
+        .file_name()
+        .map(|name| name.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "model".into());
+    out.with_file_name(format!("{name}.checkpoint"))
+}
+
+/// How `fit` was asked to start.
+enum Start {
+    Fresh(PathBuf),
+    Continue(PathBuf),
+    Resume(PathBuf),
+}
+
 /// Runs `themata fit`.
 pub fn run(args: FitArgs) -> Result<(), Failure> {
-    let plan = args.fit.resolve()?;
-    let corpus = Corpus::load(&args.corpus)?;
-    let (model, timing) = fit_model(corpus, &plan, args.quiet)?;
+    let start = match (&args.corpus, &args.continue_from, &args.resume) {
+        (Some(corpus), None, None) => Start::Fresh(corpus.clone()),
+        (None, Some(dir), None) => Start::Continue(dir.clone()),
+        (None, None, Some(dir)) => Start::Resume(dir.clone()),
+        _ => {
+            return Err(Failure::bad_input(anyhow::anyhow!(
+                "give exactly one of CORPUS, --continue DIR or --resume DIR"
+            )));
+        }
+    };
+    let (mut model, out, threads) = match &start {
+        Start::Fresh(corpus_path) => {
+            let out = args.out.clone().ok_or_else(|| {
+                Failure::bad_input(anyhow::anyhow!("--out DIR is required when fitting a corpus"))
+            })?;
+            let plan = args.fit.resolve()?;
+            let corpus = Corpus::load(corpus_path)?;
+            (fit::start(corpus, &plan.settings)?, out, plan.threads)
+        }
+        Start::Continue(dir) => {
+            refuse_changed_settings(&args.fit)?;
+            let sweeps = args.fit.iterations.ok_or_else(|| {
+                Failure::bad_input(anyhow::anyhow!(
+                    "--continue needs --iterations N (the sweeps to add)"
+                ))
+            })?;
+            let mut model = load_model(dir)?;
+            fit::extend(&mut model, sweeps)?;
+            (
+                model,
+                args.out.clone().unwrap_or_else(|| dir.clone()),
+                threads_of(&args.fit)?,
+            )
+        }
+        Start::Resume(dir) => {
+            refuse_changed_settings(&args.fit)?;
+            if args.fit.iterations.is_some() {
+                return Err(Failure::bad_input(anyhow::anyhow!(
+                    "--resume finishes the interrupted run as planned; --iterations cannot change it"
+                )));
+            }
+            let checkpoint = checkpoint_path(dir);
+            if !checkpoint.is_file() {
+                return Err(Failure::bad_input(anyhow::anyhow!(
+                    "{}: no checkpoint to resume from; checkpoints are written by `fit --checkpoint-every N`",
+                    checkpoint.display()
+                )));
+            }
+            (Model::load(&checkpoint)?, dir.clone(), threads_of(&args.fit)?)
+        }
+    };
+    // Refuse an unusable output folder before sampling, not after.
+    drop(StagedFolder::begin(&out)?);
+    let checkpoint = args.checkpoint_every.map(|every| (every, checkpoint_path(&out)));
+    let timing = sample(&mut model, threads, checkpoint, args.quiet)?;
     let summary = FitSummary::new(
         &model,
-        plan.threads,
+        threads,
         timing.sampling_seconds,
         timing.tokens_per_second(),
     );
-    let staged = StagedFolder::begin(&args.out)?;
+    let staged = StagedFolder::begin(&out)?;
     stage_model(&staged, &model, &summary)?;
     staged.commit()?;
+    let checkpoint = checkpoint_path(&out);
+    if checkpoint.exists() {
+        std::fs::remove_file(&checkpoint)
+            .map_err(|err| Failure::system(anyhow::anyhow!("{}: {err}", checkpoint.display())))?;
+    }
     if !args.quiet {
-        print_fit_line(&summary, &args.out);
+        print_fit_line(&summary, &out);
     }
     Ok(())
 }
 
-/// Fits with a progress bar on a worker pool of `plan.threads` threads.
-pub fn fit_model(corpus: Corpus, plan: &FitPlan, quiet: bool) -> Result<(Model, FitTiming), Failure> {
+/// Continuing and resuming keep the model's own settings.
+fn refuse_changed_settings(options: &FitOptions) -> Result<(), Failure> {
+    let fixed = FitOptions {
+        iterations: None,
+        threads: None,
+        ..options.clone()
+    };
+    if fixed != FitOptions::default() {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "a continued or resumed fit keeps the model's topics, priors, seed and schedule; only --iterations (with --continue) and --threads may be given"
+        )));
+    }
+    Ok(())
+}
+
+fn threads_of(options: &FitOptions) -> Result<usize, Failure> {
+    match options.threads {
+        Some(0) => Err(Failure::bad_input(anyhow::anyhow!("threads must be at least 1"))),
+        Some(threads) => Ok(threads),
+        None => Ok(std::thread::available_parallelism().map_or(1, |n| n.get())),
+    }
+}
+
+/// Runs the model to its target on a pool of `threads` threads with a
+/// progress bar; with `checkpoint = Some((every, path))`, saves the model to
+/// `path` every `every` sweeps.
+pub fn sample(
+    model: &mut Model,
+    threads: usize,
+    checkpoint: Option<(u64, PathBuf)>,
+    quiet: bool,
+) -> Result<FitTiming, Failure> {
+    if matches!(checkpoint, Some((0, _))) {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--checkpoint-every must be at least 1"
+        )));
+    }
     let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(plan.threads)
+        .num_threads(threads)
         .build()
         .map_err(Failure::system)?;
-    let mut progress = SweepProgress::new(plan.settings.iterations, quiet);
-    let result = pool.install(|| fit::fit(corpus, &plan.settings, &mut |event| progress.update(event)));
+    let mut progress = SweepProgress::new(model.target, quiet);
+    let mut checkpoint_error = None;
+    let timing = pool.install(|| {
+        fit::run_to_target(model, &mut |event| progress.update(event), &mut |model| {
+            let Some((every, path)) = &checkpoint else {
+                return ControlFlow::Continue(());
+            };
+            if model.iterations_done.is_multiple_of(*every)
+                && model.iterations_done < model.target
+                && let Err(err) = model.save(path)
+            {
+                checkpoint_error = Some(err);
+                return ControlFlow::Break(());
+            }
+            ControlFlow::Continue(())
+        })
+    });
     progress.finish();
-    Ok(result?)
+    match checkpoint_error {
+        Some(err) => Err(Failure::system(err)),
+        None => Ok(timing?),
+    }
+}
+
+/// Fits a fresh model with a progress bar on a worker pool (used by `run`).
+pub fn fit_model(corpus: Corpus, plan: &FitPlan, quiet: bool) -> Result<(Model, FitTiming), Failure> {
+    let mut model = fit::start(corpus, &plan.settings)?;
+    let timing = sample(&mut model, plan.threads, None, quiet)?;
+    Ok((model, timing))
 }
 
 /// Writes the model file and summary.json into a staged folder.
@@ -70,7 +205,7 @@ pub fn load_model(dir: &Path) -> Result<Model, Failure> {
     Ok(Model::load(&path)?)
 }
 
-/// One line saying what was fitted.
+/// What was fitted, and a warning when the trace has not levelled off.
 pub fn print_fit_line(summary: &FitSummary, out: &Path) {
     println!(
         "fitted {} topics to {} tokens in {} sweeps: log-likelihood {:.1}, {:.0} token updates/s; wrote {}",
@@ -81,4 +216,32 @@ pub fn print_fit_line(summary: &FitSummary, out: &Path) {
         summary.tokens_per_second,
         out.display()
     );
+    print_convergence(summary);
+}
+
+/// Prints the learned priors' summary and warns when not converged (stderr).
+pub fn print_convergence(summary: &FitSummary) {
+    if summary.learned_alpha {
+        let alpha: Vec<String> = summary.alpha.iter().map(|a| format!("{a:.3}")).collect();
+        println!(
+            "learned alpha: [{}] (sum {:.3})",
+            alpha.join(", "),
+            summary.alpha.iter().sum::<f64>()
+        );
+    }
+    if summary.learned_beta {
+        println!("learned beta: {}", summary.beta);
+    }
+    let convergence = &summary.convergence;
+    if !convergence.converged {
+        match convergence.relative_change {
+            Some(change) => eprintln!(
+                "themata: warning: the log-likelihood was still moving at the end (relative change {change:.2e} between halves of the post-burn-in trace, threshold {:.0e}); consider more iterations",
+                convergence.threshold
+            ),
+            None => eprintln!(
+                "themata: warning: too few log-likelihood points after burn-in to judge convergence; record more (--trace-every) or run longer"
+            ),
+        }
+    }
 }

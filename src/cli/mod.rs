@@ -98,7 +98,7 @@ pub enum Command {
     /// Print a model's topics or its documents' topic shares
     Show(show::ShowArgs),
     /// Build, fit and report in one go, as a config file describes
-    Run(RunArgs),
+    Run(Box<RunArgs>),
 }
 
 /// Arguments of `themata build`.
@@ -125,11 +125,20 @@ pub struct BuildArgs {
 #[derive(clap::Args, Debug)]
 pub struct FitArgs {
     /// Corpus file written by `themata build`
-    #[arg(value_name = "CORPUS")]
-    pub corpus: PathBuf,
-    /// Model folder to write (replaced whole if it holds an earlier model)
+    #[arg(value_name = "CORPUS", required_unless_present_any = ["continue_from", "resume"])]
+    pub corpus: Option<PathBuf>,
+    /// Model folder to write (replaced whole if it holds an earlier model); with --continue, defaults to that folder
     #[arg(long, value_name = "DIR")]
-    pub out: PathBuf,
+    pub out: Option<PathBuf>,
+    /// Continue sampling a saved model for --iterations more sweeps
+    #[arg(long = "continue", value_name = "DIR", conflicts_with_all = ["corpus", "resume"])]
+    pub continue_from: Option<PathBuf>,
+    /// Finish a run that was interrupted, from the checkpoint beside DIR
+    #[arg(long, value_name = "DIR", conflicts_with_all = ["corpus", "out"])]
+    pub resume: Option<PathBuf>,
+    /// Write a checkpoint (DIR.checkpoint beside the output folder) every N sweeps
+    #[arg(long, value_name = "N")]
+    pub checkpoint_every: Option<u64>,
     #[command(flatten, next_help_heading = "Fitting")]
     pub fit: FitOptions,
     /// No progress bar and no summary line
@@ -183,7 +192,7 @@ pub fn run(cli: Cli) -> Result<(), Failure> {
         Command::Build(args) => build::run(args),
         Command::Fit(args) => fit::run(args),
         Command::Show(args) => show::run(args),
-        Command::Run(args) => run::run(args),
+        Command::Run(args) => run::run(*args),
     }
 }
 

@@ -6,6 +6,9 @@ use themata::report::{self, FitSummary, ListingFormat, WordLimit};
 use themata::settings::RunConfig;
 
 use super::fit::{fit_model, print_fit_line, stage_model};
+
+/// Credible-interval probability of the files a run writes.
+const DEFAULT_LEVEL: f64 = 0.9;
 use super::{Failure, RunArgs, build::build_corpus};
 
 /// Runs `themata run`.
@@ -48,8 +51,9 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         timing.tokens_per_second(),
     );
 
-    let topics = report::topic_listings(&model, WordLimit::Top(top_words));
-    let documents = report::document_listings(&model);
+    let topics =
+        report::topic_listings(&model, WordLimit::Top(top_words), DEFAULT_LEVEL).map_err(Failure::system)?;
+    let documents = report::document_listings(&model, DEFAULT_LEVEL).map_err(Failure::system)?;
     let mut topics_tsv = Vec::new();
     report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv).map_err(Failure::system)?;
     staged.write("topics.tsv", &topics_tsv)?;

@@ -23,6 +23,19 @@ pub struct ShowArgs {
     /// Show each document's topic shares instead of the topics
     #[arg(long)]
     pub documents: bool,
+    /// Probability of the credible intervals shown beside shares and weights
+    #[arg(long, value_name = "P", default_value_t = 0.9, value_parser = parse_level)]
+    pub interval: f64,
+}
+
+/// Parses a credible-interval probability strictly between 0 and 1.
+pub fn parse_level(text: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(level) if level > 0.0 && level < 1.0 => Ok(level),
+        _ => Err(format!(
+            "`{text}` is not a probability strictly between 0 and 1 (e.g. 0.9)"
+        )),
+    }
 }
 
 /// Runs `themata show`.
@@ -31,9 +44,11 @@ pub fn run(args: ShowArgs) -> Result<(), Failure> {
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     let written = if args.documents {
-        report::write_documents(&mut out, &report::document_listings(&model), args.format)
+        let documents = report::document_listings(&model, args.interval).map_err(Failure::bad_input)?;
+        report::write_documents(&mut out, &documents, args.format)
     } else {
-        report::write_topics(&mut out, &report::topic_listings(&model, args.words), args.format)
+        let topics = report::topic_listings(&model, args.words, args.interval).map_err(Failure::bad_input)?;
+        report::write_topics(&mut out, &topics, args.format)
     };
     written.and_then(|()| out.flush()).or_else(ignore_broken_pipe)
 }

@@ -292,7 +292,7 @@ fn show_prints_topic_and_document_tsv_contract() {
         .unwrap();
     let text = String::from_utf8(output.stdout).unwrap();
     let mut lines = text.lines();
-    assert_eq!(lines.next(), Some("document\ttopic\tshare"));
+    assert_eq!(lines.next(), Some("document\ttopic\tshare\tlow\thigh"));
     let rows: Vec<Vec<String>> = lines
         .map(|l| l.split('\t').map(str::to_string).collect())
         .collect();
@@ -418,4 +418,174 @@ fn failed_run_keeps_the_previous_output() {
         .assert()
         .code(BAD_INPUT);
     assert_eq!(std::fs::read(scratch.path("out/model.bin")).unwrap(), before);
+}
+
+#[test]
+fn learned_priors_are_reported() {
+    let scratch = Scratch::new();
+    build_corpus(&scratch);
+    themata(scratch.root())
+        .args([
+            "fit",
+            "corpus.bin",
+            "--topics",
+            "3",
+            "--out",
+            "model",
+            "--iterations",
+            "80",
+        ])
+        .args([
+            "--burn-in",
+            "20",
+            "--alpha",
+            "learn",
+            "--beta",
+            "learn",
+            "--samples",
+            "3",
+            "--lag",
+            "5",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("learned alpha").and(predicate::str::contains("learned beta")));
+    let summary = read_json(&scratch.path("model/summary.json"));
+    assert_eq!(summary["learned_alpha"], true);
+    assert!(summary["alpha_trace"].as_array().unwrap().len() > 1);
+    assert!(summary["beta_trace"].as_array().unwrap().len() > 1);
+    assert_eq!(summary["sample_iterations"], serde_json::json!([70, 75, 80]));
+    assert!(summary["convergence"]["method"].is_string());
+}
+
+#[test]
+fn document_shares_carry_intervals() {
+    let scratch = Scratch::new();
+    build_corpus(&scratch);
+    themata(scratch.root())
+        .args([
+            "fit",
+            "corpus.bin",
+            "--topics",
+            "3",
+            "--out",
+            "model",
+            "--iterations",
+            "60",
+        ])
+        .args(["--alpha", "1", "--beta", "0.1", "--quiet"])
+        .assert()
+        .success();
+    let output = themata(scratch.root())
+        .args([
+            "show",
+            "model",
+            "--documents",
+            "--format",
+            "tsv",
+            "--interval",
+            "0.8",
+        ])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(output.stdout).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("document\ttopic\tshare\tlow\thigh"));
+    for line in lines {
+        let fields: Vec<f64> = line.split('\t').skip(2).map(|f| f.parse().unwrap()).collect();
+        // Source: common practice — with both Beta parameters at least 1
+        // (alpha = 1 here) the marginal is unimodal and its mean lies inside
+        // the central 80% interval.
+        assert!(fields[1] < fields[0] && fields[0] < fields[2], "{line}");
+        assert!(fields[1] >= 0.0 && fields[2] <= 1.0, "{line}");
+    }
+    themata(scratch.root())
+        .args(["show", "model", "--interval", "1.5"])
+        .assert()
+        .code(BAD_INPUT);
+}
+
+#[test]
+fn continue_adds_sweeps_to_a_saved_model() {
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    themata(scratch.root())
+        .args(["fit", "--continue", "model", "--iterations", "15", "--quiet"])
+        .assert()
+        .success();
+    assert_eq!(read_json(&scratch.path("model/summary.json"))["iterations"], 75);
+    themata(scratch.root())
+        .args(["fit", "--continue", "model", "--iterations", "5", "--topics", "4"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("keeps the model's topics"));
+    themata(scratch.root())
+        .args(["fit", "--resume", "model"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("no checkpoint"));
+}
+
+#[test]
+fn killed_run_resumes_to_the_same_bytes() {
+    // Source: common practice — a checkpoint holds the complete sampler state
+    // (assignments, priors, traces, samples, RNG), so finishing from it must
+    // give the model an uninterrupted run gives.
+    let scratch = Scratch::new();
+    let data = themata::synthetic::bars(1500, 60, 1.0, 9);
+    data.corpus.save(&scratch.path("bars.bin")).unwrap();
+    let args = [
+        "--topics",
+        "10",
+        "--iterations",
+        "1500",
+        "--burn-in",
+        "200",
+        "--seed",
+        "12",
+    ];
+    let extra = ["--samples", "3", "--lag", "7", "--quiet", "--threads", "1"];
+    themata(scratch.root())
+        .args(["fit", "bars.bin", "--out", "whole"])
+        .args(args)
+        .args(extra)
+        .assert()
+        .success();
+
+    let binary = assert_cmd::cargo::cargo_bin("themata");
+    let mut child = std::process::Command::new(binary)
+        .current_dir(scratch.root())
+        .args(["fit", "bars.bin", "--out", "killed", "--checkpoint-every", "25"])
+        .args(args)
+        .args(extra)
+        .spawn()
+        .unwrap();
+    let checkpoint = scratch.path("killed.checkpoint");
+    let deadline = std::time::Instant::now() + std::time::Duration::from_secs(120);
+    while !checkpoint.exists() {
+        assert!(std::time::Instant::now() < deadline, "no checkpoint appeared");
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    }
+    std::thread::sleep(std::time::Duration::from_millis(150));
+    child.kill().unwrap();
+    child.wait().unwrap();
+    assert!(
+        !scratch.path("killed").exists(),
+        "the run finished before it was killed; make it longer"
+    );
+
+    themata(scratch.root())
+        .args(["fit", "--resume", "killed", "--quiet"])
+        .assert()
+        .success();
+    assert!(
+        !checkpoint.exists(),
+        "the checkpoint is removed once the run is complete"
+    );
+    let whole = std::fs::read(scratch.path("whole/model.bin")).unwrap();
+    let resumed = std::fs::read(scratch.path("killed/model.bin")).unwrap();
+    assert!(
+        whole == resumed,
+        "resumed model differs from the uninterrupted one"
+    );
 }

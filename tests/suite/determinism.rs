@@ -6,13 +6,14 @@ use themata::synthetic;
 fn encoded_model(seed: u64, threads: usize) -> Vec<u8> {
     let data = synthetic::bars(200, 50, 1.0, 4);
     let settings = FitSettings {
-        n_topics: 10,
-        iterations: 20,
         burn_in: 5,
-        alpha: PriorSpec::Symmetric(0.5),
-        beta: PriorSpec::Symmetric(0.05),
-        seed,
+        alpha: PriorSpec::Learn,
+        beta: PriorSpec::Learn,
+        learn_every: 5,
+        samples: 3,
+        lag: 4,
         trace_every: 5,
+        ..FitSettings::fixed(10, 20, 0.5, 0.05, seed)
     };
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)

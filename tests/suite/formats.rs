@@ -10,13 +10,12 @@ use crate::util::Scratch;
 fn small_model() -> Model {
     let data = synthetic::two_topics(1);
     let settings = FitSettings {
-        n_topics: 2,
-        iterations: 10,
         burn_in: 2,
         alpha: PriorSpec::List(vec![0.2, 0.4]),
-        beta: PriorSpec::Symmetric(0.1),
-        seed: 3,
+        samples: 2,
+        lag: 3,
         trace_every: 5,
+        ..FitSettings::fixed(2, 10, 0.1, 0.1, 3)
     };
     fit(data.corpus, &settings, &mut |_| {}).unwrap().0
 }
@@ -46,6 +45,8 @@ fn model_round_trip_keeps_everything() {
     assert_eq!(back.priors, model.priors);
     assert_eq!(back.trace, model.trace);
     assert_eq!(back.rng, model.rng);
+    assert_eq!(back.samples, model.samples);
+    assert_eq!(back.samples.len(), 2);
     assert_eq!(back.encode(&path).unwrap(), model.encode(&path).unwrap());
 }
 

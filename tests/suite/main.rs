@@ -5,4 +5,6 @@ mod util;
 mod cli;
 mod determinism;
 mod formats;
+mod geweke;
+mod learning;
 mod worked_examples;

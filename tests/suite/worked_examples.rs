@@ -1,19 +1,11 @@
 //! Published worked examples: the sampler must recover known topics.
 
 use themata::compare::match_topics;
-use themata::fit::{FitSettings, PriorSpec, fit};
+use themata::fit::{FitSettings, fit};
 use themata::synthetic;
 
 fn settings(n_topics: usize, iterations: u64, alpha: f64, beta: f64, seed: u64) -> FitSettings {
-    FitSettings {
-        n_topics,
-        iterations,
-        burn_in: iterations / 2,
-        alpha: PriorSpec::Symmetric(alpha),
-        beta: PriorSpec::Symmetric(beta),
-        seed,
-        trace_every: 10,
-    }
+    FitSettings::fixed(n_topics, iterations, alpha, beta, seed)
 }
 
 #[test]

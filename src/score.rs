@@ -1,0 +1,304 @@
+//! Scoring a saved model: placing new documents in it (fold-in with the
+//! topics fixed), held-out perplexity by document completion or the
+//! left-to-right estimator, and the train/held-out split of `fit --holdout`.
+//!
+//! Work is spread over documents with rayon; each document draws from its own
+//! random stream derived from (seed, document index), so results do not
+//! depend on the number of threads.
+
+use rand::SeedableRng;
+use rand_xoshiro::Xoshiro256PlusPlus;
+use rayon::prelude::*;
+use serde::Serialize;
+
+use crate::corpus::Corpus;
+use crate::heldout::{self, FoldInSettings, HeldOutError};
+use crate::model::Model;
+use crate::tokenize::Tokenizer;
+use crate::vocab::Vocabulary;
+
+/// How held-out documents are scored.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, clap::ValueEnum, serde::Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Method {
+    /// Fold in the even positions, score the odd ones (Wallach et al. 2009).
+    #[default]
+    Completion,
+    /// Left-to-right estimate of each whole document's probability with R particles.
+    LeftToRight,
+}
+
+/// Settings of held-out scoring and fold-in.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ScoreSettings {
+    pub method: Method,
+    pub particles: usize,
+    pub fold_in: FoldInSettings,
+    pub seed: u64,
+}
+
+impl Default for ScoreSettings {
+    fn default() -> Self {
+        ScoreSettings {
+            method: Method::Completion,
+            particles: 20,
+            fold_in: FoldInSettings::default(),
+            seed: 1,
+        }
+    }
+}
+
+/// A new document cut by the model's tokenizer and mapped to its vocabulary.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EncodedDocument {
+    pub id: String,
+    pub tokens: Vec<u32>,
+    /// Tokens whose word the model does not know (dropped).
+    pub unknown_tokens: usize,
+}
+
+/// Cuts `text` exactly as the training documents were cut and keeps the
+/// tokens the vocabulary knows.
+pub fn encode_text(tokenizer: &Tokenizer, vocabulary: &Vocabulary, id: &str, text: &str) -> EncodedDocument {
+    let mut tokens = Vec::new();
+    let mut unknown_tokens = 0;
+    tokenizer.for_each_token(text, &mut |token| match vocabulary.id(token) {
+        Some(word) => tokens.push(word),
+        None => unknown_tokens += 1,
+    });
+    EncodedDocument {
+        id: id.to_string(),
+        tokens,
+        unknown_tokens,
+    }
+}
+
+/// The model's topic-word shares laid out word-major: `[w * K + k] = phi_kw`.
+pub fn phi_by_word(model: &Model) -> Vec<f64> {
+    let n_topics = model.n_topics();
+    let mut table = vec![0.0; model.state.n_words * n_topics];
+    for topic_idx in 0..n_topics {
+        for (word_idx, value) in model.topic_word_row(topic_idx).into_iter().enumerate() {
+            table[word_idx * n_topics + topic_idx] = value;
+        }
+    }
+    table
+}
+
+/// The random stream of document `doc_idx` under `seed` (SplitMix64 mixing of the index).
+pub fn document_rng(seed: u64, doc_idx: usize) -> Xoshiro256PlusPlus {
+    let mut z = (doc_idx as u64).wrapping_add(0x9e37_79b9_7f4a_7c15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+    z ^= z >> 31;
+    Xoshiro256PlusPlus::seed_from_u64(seed ^ z)
+}
+
+/// The result of scoring held-out documents.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct HeldOutScore {
+    pub method: Method,
+    /// exp(-log_likelihood / tokens_scored); `None` when nothing was scored.
+    pub heldout_perplexity: Option<f64>,
+    /// Total log-likelihood of the scored tokens.
+    pub log_likelihood: f64,
+    pub tokens_scored: usize,
+    pub unknown_tokens: usize,
+    pub documents: usize,
+    /// Documents with no known word (nothing to score).
+    pub documents_without_known_words: usize,
+}
+
+/// Scores documents against the model's topics and alpha.
+pub fn score_heldout(
+    model: &Model,
+    documents: &[EncodedDocument],
+    settings: &ScoreSettings,
+) -> Result<HeldOutScore, (String, HeldOutError)> {
+    let phi = phi_by_word(model);
+    let alpha = &model.priors.alpha;
+    let per_doc: Vec<(f64, usize)> = documents
+        .par_iter()
+        .enumerate()
+        .map(|(doc_idx, doc)| {
+            let mut rng = document_rng(settings.seed, doc_idx);
+            let scored = match settings.method {
+                Method::Completion => {
+                    heldout::completion_log_likelihood(&doc.tokens, &phi, alpha, &settings.fold_in, &mut rng)
+                        .map(|c| (c.log_likelihood, c.tokens_scored))
+                }
+                Method::LeftToRight => heldout::left_to_right_log_likelihood(
+                    &doc.tokens,
+                    &phi,
+                    alpha,
+                    settings.particles,
+                    true,
+                    &mut rng,
+                )
+                .map(|ll| (ll, doc.tokens.len())),
+            };
+            scored.map_err(|err| (doc.id.clone(), err))
+        })
+        .collect::<Result<_, _>>()?;
+    let log_likelihood: f64 = per_doc.iter().map(|(ll, _)| ll).sum();
+    let tokens_scored: usize = per_doc.iter().map(|(_, n)| n).sum();
+    Ok(HeldOutScore {
+        method: settings.method,
+        heldout_perplexity: heldout::perplexity(log_likelihood, tokens_scored),
+        log_likelihood,
+        tokens_scored,
+        unknown_tokens: documents.iter().map(|d| d.unknown_tokens).sum(),
+        documents: documents.len(),
+        documents_without_known_words: documents.iter().filter(|d| d.tokens.is_empty()).count(),
+    })
+}
+
+/// The held-out documents of a corpus as encoded documents.
+pub fn corpus_documents(corpus: &Corpus) -> Vec<EncodedDocument> {
+    (0..corpus.n_docs())
+        .map(|doc_idx| EncodedDocument {
+            id: corpus.documents[doc_idx].id.clone(),
+            tokens: corpus.doc_tokens(doc_idx).to_vec(),
+            unknown_tokens: 0,
+        })
+        .collect()
+}
+
+/// Re-maps a corpus built with another vocabulary onto the model's, counting
+/// the tokens of words the model does not know. Fails when the two share no
+/// word at all (almost certainly the wrong corpus).
+pub fn align_corpus(corpus: &Corpus, vocabulary: &Vocabulary) -> Option<Vec<EncodedDocument>> {
+    let map: Vec<Option<u32>> = corpus
+        .vocabulary
+        .words()
+        .iter()
+        .map(|w| vocabulary.id(w))
+        .collect();
+    if map.iter().all(Option::is_none) {
+        return None;
+    }
+    Some(
+        (0..corpus.n_docs())
+            .map(|doc_idx| {
+                let mut tokens = Vec::new();
+                let mut unknown_tokens = 0;
+                for &word in corpus.doc_tokens(doc_idx) {
+                    match map[word as usize] {
+                        Some(id) => tokens.push(id),
+                        None => unknown_tokens += 1,
+                    }
+                }
+                EncodedDocument {
+                    id: corpus.documents[doc_idx].id.clone(),
+                    tokens,
+                    unknown_tokens,
+                }
+            })
+            .collect(),
+    )
+}
+
+/// A document placed in the model.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Placement {
+    pub document: String,
+    pub tokens: usize,
+    pub unknown_tokens: usize,
+    /// True when no word of the document is known: the shares are then only the prior.
+    pub no_known_words: bool,
+    pub shares: Vec<f64>,
+    pub low: Vec<f64>,
+    pub high: Vec<f64>,
+}
+
+/// Folds a new document into the model with the topics fixed and gives its
+/// shares with credible intervals at `level` (a mixture over the kept
+/// fold-in samples of the Beta marginals of Dirichlet(alpha + n_d)).
+pub fn place(
+    model: &Model,
+    phi: &[f64],
+    doc: &EncodedDocument,
+    fold_in: &FoldInSettings,
+    level: f64,
+    rng: &mut Xoshiro256PlusPlus,
+) -> Result<Placement, String> {
+    let alpha = &model.priors.alpha;
+    let a0: f64 = alpha.iter().sum();
+    let folded = heldout::fold_in(&doc.tokens, phi, alpha, fold_in, rng).map_err(|err| err.to_string())?;
+    let n = doc.tokens.len() as f64;
+    let mut low = Vec::with_capacity(alpha.len());
+    let mut high = Vec::with_capacity(alpha.len());
+    for (topic_idx, &alpha_k) in alpha.iter().enumerate() {
+        let components: Vec<(f64, f64)> = folded
+            .counts
+            .iter()
+            .map(|counts| (f64::from(counts[topic_idx]) + alpha_k, n + a0))
+            .collect();
+        let interval =
+            crate::uncertainty::mixture_share_interval(&components, level).map_err(|err| err.to_string())?;
+        low.push(interval.low);
+        high.push(interval.high);
+    }
+    Ok(Placement {
+        document: doc.id.clone(),
+        tokens: doc.tokens.len(),
+        unknown_tokens: doc.unknown_tokens,
+        no_known_words: doc.tokens.is_empty(),
+        shares: folded.mean_shares,
+        low,
+        high,
+    })
+}
+
+/// Which documents `fit --holdout fraction` keeps out: exactly
+/// round(fraction * D) of them, chosen by a hash of (seed, document id), so
+/// the choice depends on neither the input order nor the thread count.
+pub fn holdout_mask(corpus: &Corpus, fraction: f64, seed: u64) -> Vec<bool> {
+    let n_docs = corpus.n_docs();
+    let held = ((fraction * n_docs as f64).round() as usize).min(n_docs.saturating_sub(1));
+    let mut keyed: Vec<(u64, usize)> = corpus
+        .documents
+        .iter()
+        .enumerate()
+        .map(|(idx, info)| (fnv1a(seed, info.id.as_bytes()), idx))
+        .collect();
+    keyed.sort_unstable();
+    let mut mask = vec![false; n_docs];
+    for &(_, idx) in keyed.iter().take(held) {
+        mask[idx] = true;
+    }
+    mask
+}
+
+/// FNV-1a over the seed's bytes and then `bytes` (common practice: a small,
+/// stable, well-spread hash).
+fn fnv1a(seed: u64, bytes: &[u8]) -> u64 {
+    let mut hash: u64 = 0xcbf2_9ce4_8422_2325;
+    for &byte in seed.to_le_bytes().iter().chain(bytes) {
+        hash ^= u64::from(byte);
+        hash = hash.wrapping_mul(0x0000_0100_0000_01b3);
+    }
+    hash
+}
+
+/// Splits a corpus by a mask into (kept, held out); both keep the full vocabulary.
+pub fn split_corpus(corpus: &Corpus, held_out: &[bool]) -> (Corpus, Corpus) {
+    let part = |want: bool| {
+        let mut out = Corpus {
+            tokenizer: corpus.tokenizer.clone(),
+            vocabulary: corpus.vocabulary.clone(),
+            documents: Vec::new(),
+            offsets: vec![0],
+            tokens: Vec::new(),
+        };
+        for (doc_idx, &held) in held_out.iter().enumerate() {
+            if held == want {
+                out.tokens.extend_from_slice(corpus.doc_tokens(doc_idx));
+                out.offsets.push(out.tokens.len() as u64);
+                out.documents.push(corpus.documents[doc_idx].clone());
+            }
+        }
+        out
+    };
+    (part(false), part(true))
+}
