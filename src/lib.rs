@@ -39,6 +39,7 @@ pub mod report;
 pub mod sampler;
 pub mod score;
 pub mod settings;
+pub mod sweep;
 pub mod synthetic;
 pub mod tokenize;
 pub mod uncertainty;

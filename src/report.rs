@@ -283,12 +283,23 @@ pub struct FitSummary {
     pub lag: u64,
     pub sample_iterations: Vec<u64>,
     pub convergence: crate::fit::Convergence,
+    /// Held-out perplexity of the documents `--holdout` kept out (null without).
+    pub heldout_perplexity: Option<f64>,
+    /// The held-out scoring behind it.
+    pub heldout: Option<crate::score::HeldOutScore>,
 }
 
 /// Version of the summary.json layout.
 pub const SUMMARY_VERSION: u32 = 1;
 
 impl FitSummary {
+    /// Records the held-out score of the documents kept out of training.
+    pub fn with_heldout(mut self, score: crate::score::HeldOutScore) -> FitSummary {
+        self.heldout_perplexity = score.heldout_perplexity;
+        self.heldout = Some(score);
+        self
+    }
+
     /// Summarises a fitted model and the timing of the run that fitted it.
     pub fn new(model: &Model, threads: usize, sampling_seconds: f64, tokens_per_second: f64) -> FitSummary {
         FitSummary {
@@ -320,6 +331,8 @@ impl FitSummary {
             lag: model.schedule.lag,
             sample_iterations: model.samples.iter().map(|s| s.iteration).collect(),
             convergence: crate::fit::convergence(model),
+            heldout_perplexity: None,
+            heldout: None,
         }
     }
 }

@@ -302,3 +302,105 @@ pub fn split_corpus(corpus: &Corpus, held_out: &[bool]) -> (Corpus, Corpus) {
     };
     (part(false), part(true))
 }
+
+/// Coherence and diagnostics of one topic, as reported by `themata score`.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct TopicQuality {
+    pub topic: usize,
+    pub top_words: Vec<String>,
+    pub umass: f64,
+    pub npmi: f64,
+    pub cv: f64,
+    pub token_share: f64,
+    pub document_prevalence: f64,
+    pub effective_words: f64,
+    pub distinctiveness: f64,
+    pub exclusivity: f64,
+}
+
+/// Coherence means and the per-topic rows.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct CoherenceReport {
+    pub umass: f64,
+    pub npmi: f64,
+    pub cv: f64,
+    /// How the probabilities were counted.
+    pub reference: String,
+    pub npmi_window: usize,
+    pub cv_window: usize,
+    pub top_words: usize,
+    pub per_topic: Vec<TopicQuality>,
+}
+
+/// The `top_n` heaviest word ids of each topic.
+pub fn top_word_ids(model: &Model, top_n: usize) -> Vec<Vec<u32>> {
+    (0..model.n_topics())
+        .map(|topic_idx| {
+            let row = model.topic_word_row(topic_idx);
+            let mut order: Vec<u32> = (0..row.len() as u32).collect();
+            order.sort_by(|&a, &b| row[b as usize].total_cmp(&row[a as usize]).then(a.cmp(&b)));
+            order.truncate(top_n.min(row.len()));
+            order
+        })
+        .collect()
+}
+
+/// Scores coherence of the model's topics against `reference` documents
+/// (word ids in the model's vocabulary) and computes per-topic diagnostics.
+pub fn coherence_report<D: AsRef<[u32]> + Sync>(
+    model: &Model,
+    reference: &[D],
+    reference_name: &str,
+    settings: &crate::coherence::CoherenceSettings,
+    top_n: usize,
+) -> Result<CoherenceReport, crate::coherence::CoherenceError> {
+    let top = top_word_ids(model, top_n);
+    let scores = crate::coherence::score_topics(&top, reference, settings)?;
+    let means =
+        crate::coherence::mean_coherence(&scores).ok_or(crate::coherence::CoherenceError::ZeroTopWords)?;
+    let phi = model.topic_word_matrix();
+    let theta: Vec<Vec<f64>> = (0..model.corpus.n_docs())
+        .map(|d| model.doc_topic_shares(d))
+        .collect();
+    // The training tokens' word distribution, smoothed by beta as phi is, so
+    // that a word with no training token keeps the divergence finite.
+    let mut corpus_freq: Vec<f64> = (0..model.state.n_words)
+        .map(|w| model.priors.beta_of(w))
+        .collect();
+    for &word in &model.corpus.tokens {
+        corpus_freq[word as usize] += 1.0;
+    }
+    let diagnostics =
+        crate::coherence::topic_diagnostics(&phi, &model.state.topic_totals, &theta, &corpus_freq, top_n)?;
+    let per_topic = scores
+        .iter()
+        .zip(&diagnostics)
+        .map(|(score, diag)| TopicQuality {
+            topic: score.topic,
+            top_words: top[score.topic]
+                .iter()
+                .map(|&w| model.corpus.vocabulary.word(w).to_string())
+                .collect(),
+            umass: score.umass,
+            npmi: score.npmi,
+            cv: score.cv,
+            token_share: diag.token_share,
+            document_prevalence: diag.document_prevalence,
+            effective_words: diag.effective_words,
+            distinctiveness: diag.distinctiveness,
+            exclusivity: diag.exclusivity,
+        })
+        .collect();
+    Ok(CoherenceReport {
+        umass: means.umass,
+        npmi: means.npmi,
+        cv: means.cv,
+        reference: format!(
+            "{reference_name}: UMass from whole-document co-occurrence; NPMI and C_V from boolean sliding windows (a document shorter than the window is one window)"
+        ),
+        npmi_window: settings.npmi_window,
+        cv_window: settings.cv_window,
+        top_words: top_n,
+        per_topic,
+    })
+}

@@ -295,6 +295,9 @@ pub struct FitOptions {
     /// Record the log-likelihood every N sweeps [default: 10]
     #[arg(long, value_name = "N")]
     pub trace_every: Option<u64>,
+    /// Keep this fraction of documents out of training and report their held-out perplexity [default: 0]
+    #[arg(long, value_name = "F")]
+    pub holdout: Option<f64>,
 }
 overlay!(FitOptions {
     topics,
@@ -307,14 +310,17 @@ overlay!(FitOptions {
     lag,
     seed,
     threads,
-    trace_every
+    trace_every,
+    holdout
 });
 
-/// Fit settings plus the thread count, which never changes the result.
+/// Fit settings plus the thread count (which never changes the result) and
+/// the held-out fraction.
 #[derive(Clone, Debug, PartialEq)]
 pub struct FitPlan {
     pub settings: FitSettings,
     pub threads: usize,
+    pub holdout: f64,
 }
 
 impl FitOptions {
@@ -371,7 +377,15 @@ impl FitOptions {
                 ),
             ));
         }
+        let holdout = self.holdout.unwrap_or(0.0);
+        if !(0.0..1.0).contains(&holdout) {
+            return Err(invalid(
+                "holdout",
+                format!("must be at least 0 and below 1, got {holdout}"),
+            ));
+        }
         Ok(FitPlan {
+            holdout,
             settings: FitSettings {
                 n_topics,
                 iterations,

@@ -9,6 +9,7 @@ use themata::fit::{self, FitTiming};
 use themata::format::{OUTPUT_MARKER, StagedFolder};
 use themata::model::Model;
 use themata::report::FitSummary;
+use themata::score;
 use themata::settings::{FitOptions, FitPlan};
 
 use super::progress::SweepProgress;
@@ -45,6 +46,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
             )));
         }
     };
+    let mut heldout = None;
     let (mut model, out, threads) = match &start {
         Start::Fresh(corpus_path) => {
             let out = args.out.clone().ok_or_else(|| {
@@ -52,7 +54,9 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
             })?;
             let plan = args.fit.resolve()?;
             let corpus = Corpus::load(corpus_path)?;
-            (fit::start(corpus, &plan.settings)?, out, plan.threads)
+            let (train, held) = split_for_holdout(corpus, &plan)?;
+            heldout = held;
+            (fit::start(train, &plan.settings)?, out, plan.threads)
         }
         Start::Continue(dir) => {
             refuse_changed_settings(&args.fit)?;
@@ -90,12 +94,15 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     drop(StagedFolder::begin(&out)?);
     let checkpoint = args.checkpoint_every.map(|every| (every, checkpoint_path(&out)));
     let timing = sample(&mut model, threads, checkpoint, args.quiet)?;
-    let summary = FitSummary::new(
+    let mut summary = FitSummary::new(
         &model,
         threads,
         timing.sampling_seconds,
         timing.tokens_per_second(),
     );
+    if let Some(held) = &heldout {
+        summary = summary.with_heldout(score_holdout(&model, held, threads)?);
+    }
     let staged = StagedFolder::begin(&out)?;
     stage_model(&staged, &model, &summary)?;
     staged.commit()?;
@@ -117,6 +124,11 @@ fn refuse_changed_settings(options: &FitOptions) -> Result<(), Failure> {
         threads: None,
         ..options.clone()
     };
+    if options.holdout.is_some() {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--holdout applies when a fit starts; a continued or resumed fit keeps its documents"
+        )));
+    }
     if fixed != FitOptions::default() {
         return Err(Failure::bad_input(anyhow::anyhow!(
             "a continued or resumed fit keeps the model's topics, priors, seed and schedule; only --iterations (with --continue) and --threads may be given"
@@ -175,11 +187,52 @@ pub fn sample(
     }
 }
 
-/// Fits a fresh model with a progress bar on a worker pool (used by `run`).
-pub fn fit_model(corpus: Corpus, plan: &FitPlan, quiet: bool) -> Result<(Model, FitTiming), Failure> {
-    let mut model = fit::start(corpus, &plan.settings)?;
+/// Splits off the `--holdout` documents (none when the fraction is 0).
+fn split_for_holdout(corpus: Corpus, plan: &FitPlan) -> Result<(Corpus, Option<Corpus>), Failure> {
+    if plan.holdout <= 0.0 {
+        return Ok((corpus, None));
+    }
+    let mask = score::holdout_mask(&corpus, plan.holdout, plan.settings.seed);
+    if !mask.iter().any(|&held| held) {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--holdout {} keeps no document out of {}; raise it or drop it",
+            plan.holdout,
+            corpus.n_docs()
+        )));
+    }
+    let (train, held) = score::split_corpus(&corpus, &mask);
+    Ok((train, Some(held)))
+}
+
+/// Held-out perplexity of the kept-out documents by document completion.
+fn score_holdout(model: &Model, held: &Corpus, threads: usize) -> Result<score::HeldOutScore, Failure> {
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(Failure::system)?;
+    let settings = score::ScoreSettings {
+        seed: model.seed,
+        ..score::ScoreSettings::default()
+    };
+    pool.install(|| score::score_heldout(model, &score::corpus_documents(held), &settings))
+        .map_err(|(doc, err)| Failure::system(anyhow::anyhow!("scoring held-out document `{doc}`: {err}")))
+}
+
+/// Fits a fresh model with a progress bar on a worker pool (used by `run`),
+/// scoring the `--holdout` documents when asked.
+pub fn fit_model(
+    corpus: Corpus,
+    plan: &FitPlan,
+    quiet: bool,
+) -> Result<(Model, FitTiming, Option<score::HeldOutScore>), Failure> {
+    let (train, held) = split_for_holdout(corpus, plan)?;
+    let mut model = fit::start(train, &plan.settings)?;
     let timing = sample(&mut model, plan.threads, None, quiet)?;
-    Ok((model, timing))
+    let heldout = match &held {
+        Some(held) => Some(score_holdout(&model, held, plan.threads)?),
+        None => None,
+    };
+    Ok((model, timing, heldout))
 }
 
 /// Writes the model file and summary.json into a staged folder.
@@ -216,6 +269,9 @@ pub fn print_fit_line(summary: &FitSummary, out: &Path) {
         summary.tokens_per_second,
         out.display()
     );
+    if let Some(perplexity) = summary.heldout_perplexity {
+        println!("held-out perplexity: {perplexity:.2} (document completion)");
+    }
     print_convergence(summary);
 }
 

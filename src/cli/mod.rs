@@ -1,11 +1,14 @@
 //! Command-line glue: the argument definitions, the error type that carries
 //! an exit code, and the dispatch to one file per subcommand.
 
+mod assign;
 mod build;
 mod fit;
 mod progress;
 mod run;
+mod score;
 mod show;
+mod sweep;
 
 use std::path::PathBuf;
 
@@ -99,6 +102,40 @@ pub enum Command {
     Show(show::ShowArgs),
     /// Build, fit and report in one go, as a config file describes
     Run(Box<RunArgs>),
+    /// Place new documents in a saved model: topic shares with intervals
+    Assign(assign::AssignArgs),
+    /// Score a saved model: held-out perplexity, coherence, topic diagnostics
+    Score(score::ScoreArgs),
+    /// Fit several numbers of topics and recommend one
+    Sweep(sweep::SweepArgs),
+}
+
+/// How new documents are read by `assign` and `score` (there `--format`
+/// names the output layout, so the input format is `--input-format`).
+#[derive(clap::Args, Debug, Clone)]
+pub struct RecordOptions {
+    /// Input format: auto decides by file extension (.txt/.md, .jsonl/.ndjson, .csv)
+    #[arg(long, value_enum, default_value_t = themata::read::InputFormat::Auto)]
+    pub input_format: themata::read::InputFormat,
+    /// JSON Lines field or CSV column holding the text
+    #[arg(long, value_name = "NAME", default_value = "text")]
+    pub text_field: String,
+    /// JSON Lines field or CSV column holding the document id
+    #[arg(long, value_name = "NAME", default_value = "id")]
+    pub id_field: String,
+}
+
+impl RecordOptions {
+    /// The same checks as the build options, through the one definition there.
+    pub fn resolve(&self) -> Result<themata::read::ReadOptions, SettingsError> {
+        InputOptions {
+            format: Some(self.input_format),
+            text_field: Some(self.text_field.clone()),
+            id_field: Some(self.id_field.clone()),
+            ..InputOptions::default()
+        }
+        .resolve()
+    }
 }
 
 /// Arguments of `themata build`.
@@ -193,6 +230,9 @@ pub fn run(cli: Cli) -> Result<(), Failure> {
         Command::Fit(args) => fit::run(args),
         Command::Show(args) => show::run(args),
         Command::Run(args) => run::run(*args),
+        Command::Assign(args) => assign::run(args),
+        Command::Score(args) => score::run(args),
+        Command::Sweep(args) => sweep::run(args),
     }
 }
 

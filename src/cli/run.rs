@@ -43,13 +43,16 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         &staged.path("corpus.bin"),
     )?;
     staged.write("corpus.bin", &corpus_bytes)?;
-    let (model, timing) = fit_model(corpus, &plan, args.quiet)?;
-    let summary = FitSummary::new(
+    let (model, timing, heldout) = fit_model(corpus, &plan, args.quiet)?;
+    let mut summary = FitSummary::new(
         &model,
         plan.threads,
         timing.sampling_seconds,
         timing.tokens_per_second(),
     );
+    if let Some(score) = heldout {
+        summary = summary.with_heldout(score);
+    }
 
     let topics =
         report::topic_listings(&model, WordLimit::Top(top_words), DEFAULT_LEVEL).map_err(Failure::system)?;

@@ -589,3 +589,248 @@ fn killed_run_resumes_to_the_same_bytes() {
         "resumed model differs from the uninterrupted one"
     );
 }
+
+#[test]
+fn fit_holdout_records_heldout_perplexity() {
+    let scratch = Scratch::new();
+    build_corpus(&scratch);
+    themata(scratch.root())
+        .args([
+            "fit",
+            "corpus.bin",
+            "--topics",
+            "3",
+            "--out",
+            "model",
+            "--iterations",
+            "40",
+        ])
+        .args(["--holdout", "0.25"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("held-out perplexity"));
+    let summary = read_json(&scratch.path("model/summary.json"));
+    assert_eq!(summary["documents"], 9, "3 of 12 documents held out");
+    let perplexity = summary["heldout_perplexity"].as_f64().unwrap();
+    // Source: common practice — perplexity is at least 1 and, for a model
+    // better than uniform, below the vocabulary size.
+    assert!(
+        perplexity >= 1.0 && perplexity < summary["vocabulary"].as_f64().unwrap(),
+        "{perplexity}"
+    );
+    themata(scratch.root())
+        .args([
+            "fit",
+            "corpus.bin",
+            "--topics",
+            "3",
+            "--out",
+            "m2",
+            "--holdout",
+            "1",
+        ])
+        .assert()
+        .code(BAD_INPUT);
+}
+
+#[test]
+fn assign_places_new_documents_and_flags_unknown_ones() {
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    scratch.write(
+        "new.jsonl",
+        "{\"id\":\"n1\",\"text\":\"harbour tide quay boat nets zebra\"}\n{\"id\":\"n2\",\"text\":\"zebra giraffe\"}\n",
+    );
+    let output = themata(scratch.root())
+        .args(["assign", "model", "new.jsonl"])
+        .output()
+        .unwrap();
+    assert!(output.status.success());
+    let text = String::from_utf8(output.stdout).unwrap();
+    let stderr = String::from_utf8(output.stderr).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("document\ttopic\tshare\tlow\thigh"));
+    let rows: Vec<&str> = lines.collect();
+    assert_eq!(rows.len(), 3, "three topic rows for n1, none for n2: {text}");
+    assert!(rows.iter().all(|r| r.starts_with("n1\t")));
+    assert!(stderr.contains("flagged: document `n2`"), "{stderr}");
+    assert!(stderr.contains("3 unknown tokens"), "{stderr}");
+    let output = themata(scratch.root())
+        .args(["assign", "model", "new.jsonl", "--format", "jsonl", "--quiet"])
+        .output()
+        .unwrap();
+    let records: Vec<Value> = String::from_utf8(output.stdout)
+        .unwrap()
+        .lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect();
+    assert_eq!(records.len(), 2);
+    assert_eq!(records[1]["no_known_words"], true);
+    assert_eq!(records[0]["unknown_tokens"], 1);
+    themata(scratch.root())
+        .args(["assign", "model", "absent.jsonl"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("absent.jsonl"));
+    themata(scratch.root())
+        .args(["assign", "no-model", "new.jsonl"])
+        .assert()
+        .code(BAD_INPUT);
+    themata(scratch.root())
+        .args(["assign", "model", "new.jsonl", "--format", "xml"])
+        .assert()
+        .code(BAD_INPUT);
+}
+
+#[test]
+fn score_reports_the_json_contract() {
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let output = themata(scratch.root())
+        .args([
+            "score",
+            "model",
+            "--heldout",
+            "docs",
+            "--format",
+            "json",
+            "--method",
+            "left-to-right",
+        ])
+        .args(["--particles", "5"])
+        .output()
+        .unwrap();
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let json: Value = serde_json::from_slice(&output.stdout).unwrap();
+    for key in [
+        "heldout_perplexity",
+        "method",
+        "tokens_scored",
+        "unknown_tokens",
+        "coherence",
+    ] {
+        assert!(json.get(key).is_some(), "missing {key}: {json}");
+    }
+    for key in ["umass", "npmi", "cv", "per_topic"] {
+        assert!(json["coherence"].get(key).is_some(), "missing coherence.{key}");
+    }
+    assert_eq!(json["method"], "left-to-right");
+    assert_eq!(json["coherence"]["per_topic"].as_array().unwrap().len(), 3);
+    // Scoring the training corpus file itself works too (same vocabulary).
+    themata(scratch.root())
+        .args(["score", "model", "--heldout", "corpus.bin"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("held-out perplexity"));
+    // A window larger than every document: each document counts as one window.
+    themata(scratch.root())
+        .args(["score", "model", "--npmi-window", "500", "--cv-window", "500"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("window 500"));
+}
+
+#[test]
+fn score_refuses_bad_inputs() {
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    scratch.write("other/a.txt", "alpha beta gamma delta alpha beta gamma delta");
+    scratch.write("other/b.txt", "alpha beta gamma delta epsilon alpha beta");
+    themata(scratch.root())
+        .args([
+            "build",
+            "other",
+            "--out",
+            "other.bin",
+            "--min-docs",
+            "1",
+            "--max-doc-share",
+            "1",
+        ])
+        .assert()
+        .success();
+    themata(scratch.root())
+        .args(["score", "model", "--heldout", "other.bin"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("shares no word"));
+    themata(scratch.root())
+        .args([
+            "build",
+            "docs",
+            "--out",
+            "stemmed.bin",
+            "--min-docs",
+            "1",
+            "--stem",
+            "english",
+        ])
+        .assert()
+        .success();
+    themata(scratch.root())
+        .args(["score", "model", "--heldout", "stemmed.bin"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("other tokenizer settings"));
+    scratch.write("empty/blank.txt", "   ");
+    themata(scratch.root())
+        .args(["score", "model", "--heldout", "empty"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("no usable documents"));
+    themata(scratch.root())
+        .args(["score", "model", "--top-words", "1"])
+        .assert()
+        .code(BAD_INPUT);
+}
+
+#[test]
+fn sweep_writes_a_table_and_recommends() {
+    let scratch = Scratch::new();
+    build_corpus(&scratch);
+    themata(scratch.root())
+        .args([
+            "sweep",
+            "corpus.bin",
+            "--topics",
+            "2,3",
+            "--seeds",
+            "2",
+            "--iterations",
+            "30",
+        ])
+        .args(["--holdout", "0.25", "--out", "sweep"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("recommended:"));
+    let report = read_json(&scratch.path("sweep/summary.json"));
+    assert_eq!(report["rows"].as_array().unwrap().len(), 2);
+    assert!(report["recommended_topics"].as_u64().is_some());
+    let tsv = std::fs::read_to_string(scratch.path("sweep/sweep.tsv")).unwrap();
+    assert!(tsv.starts_with("topics\tseeds\theldout_perplexity"));
+    themata(scratch.root())
+        .args([
+            "sweep",
+            "corpus.bin",
+            "--topics",
+            "2",
+            "--seeds",
+            "0",
+            "--out",
+            "s2",
+        ])
+        .assert()
+        .code(BAD_INPUT);
+    themata(scratch.root())
+        .args(["sweep", "corpus.bin", "--topics", "0,2", "--out", "s3"])
+        .assert()
+        .code(BAD_INPUT);
+    themata(scratch.root())
+        .args(["sweep", "absent.bin", "--topics", "2", "--out", "s4"])
+        .assert()
+        .code(BAD_INPUT);
+}

@@ -7,4 +7,5 @@ mod determinism;
 mod formats;
 mod geweke;
 mod learning;
+mod scoring;
 mod worked_examples;

@@ -1,0 +1,183 @@
+//! `themata assign`: place new documents in a saved model, streaming.
+
+use std::io::Write;
+use std::path::PathBuf;
+
+use themata::heldout::FoldInSettings;
+use themata::read::{self, Diagnostic};
+use themata::score::{self, EncodedDocument, Placement};
+use themata::tokenize::Tokenizer;
+
+use super::fit::load_model;
+use super::show::parse_level;
+use super::{Failure, RecordOptions};
+
+/// Documents folded in together (in parallel) before their lines are written;
+/// bounds memory whatever the length of the stream.
+const BATCH: usize = 256;
+
+/// Output layouts of `assign`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum AssignFormat {
+    /// `document<TAB>topic<TAB>share<TAB>low<TAB>high`, as `show --documents`.
+    Tsv,
+    /// One JSON object per document with its shares, intervals and word counts.
+    Jsonl,
+}
+
+/// Arguments of `themata assign`.
+#[derive(clap::Args, Debug)]
+pub struct AssignArgs {
+    /// Model folder written by `themata fit` or `themata run`
+    #[arg(value_name = "DIR")]
+    pub dir: PathBuf,
+    /// New documents: files or folders; `-` reads JSON Lines from stdin
+    #[arg(required = true, value_name = "INPUT")]
+    pub inputs: Vec<PathBuf>,
+    /// Output layout
+    #[arg(long, value_enum, default_value_t = AssignFormat::Tsv)]
+    pub format: AssignFormat,
+    #[command(flatten)]
+    pub records: RecordOptions,
+    /// Probability of the credible intervals
+    #[arg(long, value_name = "P", default_value_t = 0.9, value_parser = parse_level)]
+    pub interval: f64,
+    /// Fold-in samples kept per document (after 50 burn-in sweeps, 5 sweeps apart)
+    #[arg(long, value_name = "S", default_value_t = 10)]
+    pub samples: usize,
+    /// Seed of the fold-in random streams
+    #[arg(long, value_name = "S", default_value_t = 1)]
+    pub seed: u64,
+    /// No summary on stderr
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+/// Runs `themata assign`.
+pub fn run(args: AssignArgs) -> Result<(), Failure> {
+    if args.samples == 0 {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--samples must be at least 1"
+        )));
+    }
+    let model = load_model(&args.dir)?;
+    let tokenizer = Tokenizer::new(&model.corpus.tokenizer).map_err(Failure::bad_input)?;
+    let phi = score::phi_by_word(&model);
+    let fold_in = FoldInSettings {
+        samples: args.samples,
+        ..FoldInSettings::default()
+    };
+    let options = args.records.resolve()?;
+    let stdout = std::io::stdout();
+    let mut out = std::io::BufWriter::new(stdout.lock());
+    if args.format == AssignFormat::Tsv {
+        writeln!(out, "document\ttopic\tshare\tlow\thigh").map_err(Failure::system)?;
+    }
+    let mut batch: Vec<EncodedDocument> = Vec::with_capacity(BATCH);
+    let mut totals = Totals::default();
+    let mut failure: Option<Failure> = None;
+    let mut diagnostics: Vec<Diagnostic> = Vec::new();
+    let mut flush = |batch: &mut Vec<EncodedDocument>, totals: &mut Totals| -> Result<(), Failure> {
+        let first = totals.documents;
+        let placed: Vec<Result<Placement, String>> = {
+            use rayon::prelude::*;
+            batch
+                .par_iter()
+                .enumerate()
+                .map(|(offset, doc)| {
+                    let mut rng = score::document_rng(args.seed, first + offset);
+                    score::place(&model, &phi, doc, &fold_in, args.interval, &mut rng)
+                })
+                .collect()
+        };
+        for (doc, placement) in batch.iter().zip(placed) {
+            let placement =
+                placement.map_err(|err| Failure::system(anyhow::anyhow!("document `{}`: {err}", doc.id)))?;
+            totals.add(&placement);
+            write_placement(&mut out, &placement, args.format).map_err(Failure::system)?;
+            if placement.no_known_words {
+                eprintln!(
+                    "themata: flagged: document `{}` has no word the model knows ({} tokens, all unknown); it was not placed",
+                    placement.document, placement.unknown_tokens
+                );
+            }
+        }
+        batch.clear();
+        Ok(())
+    };
+    read::read_documents(&args.inputs, &options, &mut diagnostics, &mut |raw| {
+        if failure.is_some() {
+            return;
+        }
+        batch.push(score::encode_text(
+            &tokenizer,
+            &model.corpus.vocabulary,
+            &raw.id,
+            &raw.text,
+        ));
+        if batch.len() == BATCH
+            && let Err(err) = flush(&mut batch, &mut totals)
+        {
+            failure = Some(err);
+        }
+    })
+    .map_err(Failure::bad_input)?;
+    if let Some(err) = failure {
+        return Err(err);
+    }
+    flush(&mut batch, &mut totals)?;
+    out.flush().map_err(Failure::system)?;
+    for diagnostic in &diagnostics {
+        eprintln!("themata: skipped: {diagnostic}");
+    }
+    if !args.quiet {
+        eprintln!(
+            "assigned {} documents: {} known tokens, {} unknown tokens; {} with no known word; {} skipped",
+            totals.documents,
+            totals.tokens,
+            totals.unknown,
+            totals.without_known_words,
+            diagnostics.len()
+        );
+    }
+    Ok(())
+}
+
+#[derive(Default)]
+struct Totals {
+    documents: usize,
+    tokens: usize,
+    unknown: usize,
+    without_known_words: usize,
+}
+
+impl Totals {
+    fn add(&mut self, placement: &Placement) {
+        self.documents += 1;
+        self.tokens += placement.tokens;
+        self.unknown += placement.unknown_tokens;
+        self.without_known_words += usize::from(placement.no_known_words);
+    }
+}
+
+fn write_placement(out: &mut dyn Write, placement: &Placement, format: AssignFormat) -> std::io::Result<()> {
+    match format {
+        AssignFormat::Jsonl => {
+            serde_json::to_writer(&mut *out, placement)?;
+            writeln!(out)
+        }
+        AssignFormat::Tsv => {
+            if placement.no_known_words {
+                return Ok(());
+            }
+            for (topic, share) in placement.shares.iter().enumerate() {
+                writeln!(
+                    out,
+                    "{}\t{}\t{}\t{}\t{}",
+                    placement.document, topic, share, placement.low[topic], placement.high[topic]
+                )?;
+            }
+            Ok(())
+        }
+    }
+}

@@ -1,0 +1,254 @@
+//! `themata score`: held-out perplexity, coherence and per-topic diagnostics
+//! of a saved model.
+
+use std::io::Read;
+use std::path::{Path, PathBuf};
+
+use serde::Serialize;
+use themata::coherence::CoherenceSettings;
+use themata::corpus::Corpus;
+use themata::format::FileKind;
+use themata::heldout::FoldInSettings;
+use themata::model::Model;
+use themata::read::{self, Diagnostic};
+use themata::report::ListingFormat;
+use themata::score::{self, CoherenceReport, EncodedDocument, Method, ScoreSettings};
+use themata::tokenize::Tokenizer;
+
+use super::fit::load_model;
+use super::{Failure, RecordOptions};
+
+/// Arguments of `themata score`.
+#[derive(clap::Args, Debug)]
+pub struct ScoreArgs {
+    /// Model folder written by `themata fit` or `themata run`
+    #[arg(value_name = "DIR")]
+    pub dir: PathBuf,
+    /// Held-out documents: raw files or folders (cut by the model's tokenizer), or one corpus file
+    #[arg(long, value_name = "INPUT", num_args = 1..)]
+    pub heldout: Vec<PathBuf>,
+    /// Held-out estimator
+    #[arg(long, value_enum, default_value_t = Method::Completion)]
+    pub method: Method,
+    /// Particles of the left-to-right estimator
+    #[arg(long, value_name = "R", default_value_t = 20)]
+    pub particles: usize,
+    /// Corpus file whose documents give the coherence probabilities [default: the training corpus]
+    #[arg(long, value_name = "CORPUS")]
+    pub reference: Option<PathBuf>,
+    /// Top words per topic that coherence is computed over
+    #[arg(long, value_name = "M", default_value_t = 10)]
+    pub top_words: usize,
+    /// Sliding window of NPMI, in tokens (a document shorter than the window is one window)
+    #[arg(long, value_name = "N", default_value_t = 10)]
+    pub npmi_window: usize,
+    /// Sliding window of C_V, in tokens
+    #[arg(long, value_name = "N", default_value_t = 110)]
+    pub cv_window: usize,
+    /// Output layout (table or json)
+    #[arg(long, value_enum, default_value_t = ListingFormat::Table)]
+    pub format: ListingFormat,
+    #[command(flatten)]
+    pub records: RecordOptions,
+    /// Seed of the scoring random streams
+    #[arg(long, value_name = "S", default_value_t = 1)]
+    pub seed: u64,
+}
+
+/// The JSON object `score --format json` prints.
+#[derive(Serialize)]
+struct ScoreOutput {
+    heldout_perplexity: Option<f64>,
+    method: Option<Method>,
+    tokens_scored: usize,
+    unknown_tokens: usize,
+    heldout_documents: usize,
+    documents_without_known_words: usize,
+    coherence: CoherenceReport,
+}
+
+/// Runs `themata score`.
+pub fn run(args: ScoreArgs) -> Result<(), Failure> {
+    if args.particles == 0 {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--particles must be at least 1"
+        )));
+    }
+    if args.format == ListingFormat::Tsv {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "score prints --format table or json"
+        )));
+    }
+    let model = load_model(&args.dir)?;
+    let heldout = if args.heldout.is_empty() {
+        None
+    } else {
+        let documents = heldout_documents(&model, &args)?;
+        if documents.is_empty() {
+            return Err(Failure::bad_input(anyhow::anyhow!(
+                "the held-out input has no usable documents; nothing to score"
+            )));
+        }
+        let settings = ScoreSettings {
+            method: args.method,
+            particles: args.particles,
+            fold_in: FoldInSettings::default(),
+            seed: args.seed,
+        };
+        let scored = score::score_heldout(&model, &documents, &settings)
+            .map_err(|(doc, err)| Failure::system(anyhow::anyhow!("scoring document `{doc}`: {err}")))?;
+        Some(scored)
+    };
+    let coherence = coherence(&model, &args)?;
+    let output = ScoreOutput {
+        heldout_perplexity: heldout.as_ref().and_then(|h| h.heldout_perplexity),
+        method: heldout.as_ref().map(|h| h.method),
+        tokens_scored: heldout.as_ref().map_or(0, |h| h.tokens_scored),
+        unknown_tokens: heldout.as_ref().map_or(0, |h| h.unknown_tokens),
+        heldout_documents: heldout.as_ref().map_or(0, |h| h.documents),
+        documents_without_known_words: heldout.as_ref().map_or(0, |h| h.documents_without_known_words),
+        coherence,
+    };
+    match args.format {
+        ListingFormat::Json => {
+            let text = serde_json::to_string_pretty(&output).map_err(Failure::system)?;
+            println!("{text}");
+        }
+        _ => print_table(&output),
+    }
+    Ok(())
+}
+
+fn is_corpus_file(path: &Path) -> bool {
+    let mut magic = [0u8; 8];
+    std::fs::File::open(path)
+        .and_then(|mut file| file.read_exact(&mut magic))
+        .is_ok()
+        && &magic == FileKind::Corpus.magic()
+}
+
+/// Held-out documents mapped to the model's vocabulary.
+fn heldout_documents(model: &Model, args: &ScoreArgs) -> Result<Vec<EncodedDocument>, Failure> {
+    if let [single] = args.heldout.as_slice()
+        && is_corpus_file(single)
+    {
+        let corpus = Corpus::load(single)?;
+        return aligned(model, &corpus, single);
+    }
+    let tokenizer = Tokenizer::new(&model.corpus.tokenizer).map_err(Failure::bad_input)?;
+    let options = args.records.resolve()?;
+    let mut documents = Vec::new();
+    let mut diagnostics: Vec<Diagnostic> = Vec::new();
+    read::read_documents(&args.heldout, &options, &mut diagnostics, &mut |raw| {
+        documents.push(score::encode_text(
+            &tokenizer,
+            &model.corpus.vocabulary,
+            &raw.id,
+            &raw.text,
+        ));
+    })
+    .map_err(Failure::bad_input)?;
+    for diagnostic in &diagnostics {
+        eprintln!("themata: skipped: {diagnostic}");
+    }
+    Ok(documents)
+}
+
+/// A corpus file's documents in the model's vocabulary; refused when it was
+/// cut by other tokenizer settings or shares no word with the model.
+fn aligned(model: &Model, corpus: &Corpus, path: &Path) -> Result<Vec<EncodedDocument>, Failure> {
+    if corpus.tokenizer != model.corpus.tokenizer {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "{}: this corpus was built with other tokenizer settings than the model; score the raw documents instead, or rebuild the corpus with the model's settings",
+            path.display()
+        )));
+    }
+    score::align_corpus(corpus, &model.corpus.vocabulary).ok_or_else(|| {
+        Failure::bad_input(anyhow::anyhow!(
+            "{}: this corpus shares no word with the model's vocabulary; it was built from other documents or settings",
+            path.display()
+        ))
+    })
+}
+
+fn coherence(model: &Model, args: &ScoreArgs) -> Result<CoherenceReport, Failure> {
+    let settings = CoherenceSettings {
+        npmi_window: args.npmi_window,
+        cv_window: args.cv_window,
+        ..CoherenceSettings::default()
+    };
+    if args.top_words < 2 {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--top-words must be at least 2"
+        )));
+    }
+    let result = match &args.reference {
+        Some(path) => {
+            let corpus = Corpus::load(path)?;
+            let documents: Vec<Vec<u32>> = aligned(model, &corpus, path)?
+                .into_iter()
+                .map(|d| d.tokens)
+                .collect();
+            score::coherence_report(
+                model,
+                &documents,
+                &path.display().to_string(),
+                &settings,
+                args.top_words,
+            )
+        }
+        None => {
+            let documents: Vec<&[u32]> = (0..model.corpus.n_docs())
+                .map(|d| model.corpus.doc_tokens(d))
+                .collect();
+            score::coherence_report(model, &documents, "training corpus", &settings, args.top_words)
+        }
+    };
+    result.map_err(Failure::bad_input)
+}
+
+fn print_table(output: &ScoreOutput) {
+    match output.heldout_perplexity {
+        Some(perplexity) => println!(
+            "held-out perplexity {perplexity:.3} ({}; {} tokens scored in {} documents, {} unknown tokens, {} documents with no known word)",
+            match output.method {
+                Some(Method::LeftToRight) => "left-to-right",
+                _ => "document completion",
+            },
+            output.tokens_scored,
+            output.heldout_documents,
+            output.unknown_tokens,
+            output.documents_without_known_words
+        ),
+        None => println!("held-out perplexity: not computed (pass --heldout INPUT)"),
+    }
+    let c = &output.coherence;
+    println!(
+        "coherence over the top {} words: UMass {:.3}, NPMI {:.3} (window {}), C_V {:.3} (window {})",
+        c.top_words, c.umass, c.npmi, c.npmi_window, c.cv, c.cv_window
+    );
+    println!(
+        "{:>5}  {:>7}  {:>6}  {:>6}  {:>6}  {:>10}  {:>9}  {:>8}  {:>8}  top words",
+        "topic", "umass", "npmi", "cv", "share", "prevalence", "eff.words", "distinct", "exclusiv"
+    );
+    for row in &c.per_topic {
+        println!(
+            "{:>5}  {:>7.3}  {:>6.3}  {:>6.3}  {:>5.1}%  {:>9.1}%  {:>9.1}  {:>8.3}  {:>8.3}  {}",
+            row.topic,
+            row.umass,
+            row.npmi,
+            row.cv,
+            100.0 * row.token_share,
+            100.0 * row.document_prevalence,
+            row.effective_words,
+            row.distinctiveness,
+            row.exclusivity,
+            row.top_words
+                .iter()
+                .take(6)
+                .cloned()
+                .collect::<Vec<_>>()
+                .join(" ")
+        );
+    }
+}

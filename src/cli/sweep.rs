@@ -1,0 +1,127 @@
+//! `themata sweep`: fit several numbers of topics and recommend one.
+
+use std::path::PathBuf;
+
+use themata::corpus::Corpus;
+use themata::fit::PriorSpec;
+use themata::format::{OUTPUT_MARKER, StagedFolder};
+use themata::settings::FitOptions;
+use themata::sweep::{self, SweepSettings};
+
+use super::Failure;
+
+/// Arguments of `themata sweep`.
+#[derive(clap::Args, Debug)]
+#[command(
+    after_help = "Recommendation rule: the smallest K whose mean held-out perplexity (document completion, same held-out documents for every run) is within 2% of the lowest mean held-out perplexity among the candidates. Stability is the mean Jensen-Shannon distance of Hungarian-matched topics between runs with different seeds (lower is more stable)."
+)]
+pub struct SweepArgs {
+    /// Corpus file written by `themata build`
+    #[arg(value_name = "CORPUS")]
+    pub corpus: PathBuf,
+    /// Candidate numbers of topics, comma-separated
+    #[arg(long, value_name = "K,K,...", value_delimiter = ',', required = true)]
+    pub topics: Vec<usize>,
+    /// Seeds fitted per candidate (1, 2, ... S); two or more measure stability
+    #[arg(long, value_name = "S", default_value_t = 2)]
+    pub seeds: u64,
+    /// Fraction of documents held out for perplexity
+    #[arg(long, value_name = "F", default_value_t = 0.2)]
+    pub holdout: f64,
+    /// Gibbs sweeps per fit
+    #[arg(long, value_name = "N", default_value_t = 500)]
+    pub iterations: u64,
+    /// Document-topic prior of each fit (as for `fit`)
+    #[arg(long, value_name = "learn|X", default_value = "learn")]
+    pub alpha: PriorSpec,
+    /// Topic-word prior of each fit (as for `fit`)
+    #[arg(long, value_name = "learn|X", default_value = "learn")]
+    pub beta: PriorSpec,
+    /// Worker threads (runs are spread over them) [default: all cores]
+    #[arg(long, value_name = "T")]
+    pub threads: Option<usize>,
+    /// Folder for sweep.tsv and summary.json (the table as JSON)
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+}
+
+/// Runs `themata sweep`.
+pub fn run(args: SweepArgs) -> Result<(), Failure> {
+    if args.seeds == 0 {
+        return Err(Failure::bad_input(anyhow::anyhow!("--seeds must be at least 1")));
+    }
+    if !(args.holdout > 0.0 && args.holdout < 1.0) {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--holdout must be above 0 and below 1 (perplexity needs held-out documents)"
+        )));
+    }
+    let mut topics = args.topics.clone();
+    topics.sort_unstable();
+    topics.dedup();
+    // Validate through the one definition of the fit options.
+    let plan = FitOptions {
+        topics: Some(topics[0]),
+        iterations: Some(args.iterations),
+        alpha: Some(args.alpha.clone()),
+        beta: Some(args.beta.clone()),
+        threads: args.threads,
+        ..FitOptions::default()
+    }
+    .resolve()?;
+    let corpus = Corpus::load(&args.corpus)?;
+    let settings = SweepSettings {
+        topics,
+        seeds: (1..=args.seeds).collect(),
+        holdout: args.holdout,
+        fit: plan.settings,
+    };
+    let staged = StagedFolder::begin(&args.out)?;
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(plan.threads)
+        .build()
+        .map_err(Failure::system)?;
+    eprintln!(
+        "themata: sweeping {} candidates x {} seeds on {} threads",
+        settings.topics.len(),
+        settings.seeds.len(),
+        plan.threads
+    );
+    let report = pool
+        .install(|| sweep::run_sweep(&corpus, &settings))
+        .map_err(|err| match err {
+            sweep::SweepError::Scoring { .. } => Failure::system(err),
+            _ => Failure::bad_input(err),
+        })?;
+    let tsv = sweep::to_tsv(&report);
+    staged.write("sweep.tsv", tsv.as_bytes())?;
+    let json = serde_json::to_vec_pretty(&report).map_err(Failure::system)?;
+    staged.write(OUTPUT_MARKER, &json)?;
+    staged.commit()?;
+    println!(
+        "{:>6}  {:>12}  {:>8}  {:>7}  {:>7}  {:>9}",
+        "topics", "perplexity", "sd", "npmi", "umass", "stability"
+    );
+    for row in &report.rows {
+        println!(
+            "{:>6}  {:>12.3}  {:>8.3}  {:>7.3}  {:>7.2}  {:>9}{}",
+            row.topics,
+            row.heldout_perplexity,
+            row.perplexity_sd,
+            row.npmi,
+            row.umass,
+            row.stability.map_or("-".to_string(), |s| format!("{s:.3}")),
+            if row.topics == report.recommended_topics {
+                "  <- recommended"
+            } else {
+                ""
+            }
+        );
+    }
+    println!(
+        "recommended: {} topics ({}); wrote {}",
+        report.recommended_topics,
+        report.rule,
+        args.out.display()
+    );
+    Ok(())
+}

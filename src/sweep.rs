@@ -1,0 +1,223 @@
+//! Choosing the number of topics: fit each candidate K with several seeds on
+//! the same training documents, score held-out perplexity and coherence,
+//! measure stability across seeds, and recommend a K by a stated rule.
+//!
+//! The rule: **the smallest K whose mean held-out perplexity is within
+//! [`PERPLEXITY_TOLERANCE`] (2%) of the lowest mean held-out perplexity of
+//! all candidates.** Perplexity rewards extra topics only while they explain
+//! held-out words; past the true structure the gains fall inside the noise
+//! of the estimate, and the smaller model is preferred.
+
+use rayon::prelude::*;
+use serde::Serialize;
+
+use crate::coherence::CoherenceSettings;
+use crate::compare::match_topics;
+use crate::corpus::Corpus;
+use crate::fit::{self, FitError, FitSettings};
+use crate::score::{self, ScoreSettings};
+
+/// Why a sweep could not run.
+#[derive(Debug, thiserror::Error)]
+pub enum SweepError {
+    #[error(transparent)]
+    Fit(#[from] FitError),
+    #[error("the held-out fraction keeps no document out; raise --holdout")]
+    NoHeldOut,
+    #[error("scoring held-out document `{document}` failed: {detail}")]
+    Scoring { document: String, detail: String },
+}
+
+/// Relative distance from the best perplexity within which the smallest K wins.
+pub const PERPLEXITY_TOLERANCE: f64 = 0.02;
+
+/// What to sweep.
+#[derive(Clone, Debug)]
+pub struct SweepSettings {
+    /// Candidate numbers of topics.
+    pub topics: Vec<usize>,
+    /// Seeds fitted per candidate.
+    pub seeds: Vec<u64>,
+    /// Fraction of documents held out (the same documents for every run).
+    pub holdout: f64,
+    /// Everything else about each fit (`n_topics` and `seed` are replaced).
+    pub fit: FitSettings,
+}
+
+/// One candidate K, averaged over seeds.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct SweepRow {
+    pub topics: usize,
+    pub seeds: usize,
+    /// Mean document-completion perplexity of the held-out documents.
+    pub heldout_perplexity: f64,
+    /// Standard deviation of the perplexity across seeds (0 with one seed).
+    pub perplexity_sd: f64,
+    /// Mean NPMI (window 10) of the top 10 words on the training documents.
+    pub npmi: f64,
+    /// Mean UMass of the top 10 words on the training documents.
+    pub umass: f64,
+    /// Mean Jensen-Shannon distance of Hungarian-matched topics between
+    /// every pair of seeds (0 = identical topics); `None` with one seed.
+    pub stability: Option<f64>,
+}
+
+/// The sweep's table and recommendation.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct SweepReport {
+    pub rows: Vec<SweepRow>,
+    pub recommended_topics: usize,
+    pub rule: String,
+    pub training_documents: usize,
+    pub heldout_documents: usize,
+}
+
+/// One fitted run of the sweep.
+struct RunResult {
+    topics: usize,
+    perplexity: f64,
+    npmi: f64,
+    umass: f64,
+    phi: Vec<Vec<f64>>,
+}
+
+/// Fits every (K, seed) pair, spread over the current thread pool.
+pub fn run_sweep(corpus: &Corpus, settings: &SweepSettings) -> Result<SweepReport, SweepError> {
+    let mask = score::holdout_mask(corpus, settings.holdout, 0x5eed);
+    let (train, held) = score::split_corpus(corpus, &mask);
+    if held.n_docs() == 0 {
+        return Err(SweepError::NoHeldOut);
+    }
+    let held_docs = score::corpus_documents(&held);
+    for &topics in &settings.topics {
+        fit::resolve(
+            &train,
+            &FitSettings {
+                n_topics: topics,
+                ..settings.fit.clone()
+            },
+        )?;
+    }
+    let jobs: Vec<(usize, u64)> = settings
+        .topics
+        .iter()
+        .flat_map(|&k| settings.seeds.iter().map(move |&seed| (k, seed)))
+        .collect();
+    let results: Vec<RunResult> = jobs
+        .par_iter()
+        .map(|&(topics, seed)| {
+            let fit_settings = FitSettings {
+                n_topics: topics,
+                seed,
+                ..settings.fit.clone()
+            };
+            let (model, _) = fit::fit(train.clone(), &fit_settings, &mut |_| {})?;
+            let scored = score::score_heldout(
+                &model,
+                &held_docs,
+                &ScoreSettings {
+                    seed,
+                    ..ScoreSettings::default()
+                },
+            )
+            .map_err(|(document, err)| SweepError::Scoring {
+                document,
+                detail: err.to_string(),
+            })?;
+            let documents: Vec<&[u32]> = (0..model.corpus.n_docs())
+                .map(|d| model.corpus.doc_tokens(d))
+                .collect();
+            let coherence =
+                score::coherence_report(&model, &documents, "training", &CoherenceSettings::default(), 10)
+                    .map_err(|err| SweepError::Scoring {
+                        document: "(coherence of the training documents)".to_string(),
+                        detail: err.to_string(),
+                    })?;
+            Ok(RunResult {
+                topics,
+                perplexity: scored.heldout_perplexity.unwrap_or(f64::INFINITY),
+                npmi: coherence.npmi,
+                umass: coherence.umass,
+                phi: model.topic_word_matrix(),
+            })
+        })
+        .collect::<Result<_, SweepError>>()?;
+    let rows: Vec<SweepRow> = settings
+        .topics
+        .iter()
+        .map(|&topics| summarise(topics, results.iter().filter(|r| r.topics == topics).collect()))
+        .collect();
+    let best = rows
+        .iter()
+        .map(|r| r.heldout_perplexity)
+        .fold(f64::INFINITY, f64::min);
+    let recommended_topics = rows
+        .iter()
+        .filter(|r| r.heldout_perplexity <= best * (1.0 + PERPLEXITY_TOLERANCE))
+        .map(|r| r.topics)
+        .min()
+        .unwrap_or(settings.topics[0]);
+    Ok(SweepReport {
+        rows,
+        recommended_topics,
+        rule: format!(
+            "the smallest K whose mean held-out perplexity is within {:.0}% of the lowest",
+            100.0 * PERPLEXITY_TOLERANCE
+        ),
+        training_documents: train.n_docs(),
+        heldout_documents: held.n_docs(),
+    })
+}
+
+fn summarise(topics: usize, runs: Vec<&RunResult>) -> SweepRow {
+    let n = runs.len() as f64;
+    let mean = |f: &dyn Fn(&RunResult) -> f64| runs.iter().map(|r| f(r)).sum::<f64>() / n;
+    let perplexity = mean(&|r| r.perplexity);
+    let perplexity_sd = if runs.len() > 1 {
+        (runs
+            .iter()
+            .map(|r| (r.perplexity - perplexity).powi(2))
+            .sum::<f64>()
+            / (n - 1.0))
+            .sqrt()
+    } else {
+        0.0
+    };
+    let mut distances = Vec::new();
+    for (i, a) in runs.iter().enumerate() {
+        for b in &runs[i + 1..] {
+            let matched = match_topics(&a.phi, &b.phi);
+            distances.push(matched.iter().map(|m| m.distance).sum::<f64>() / matched.len() as f64);
+        }
+    }
+    SweepRow {
+        topics,
+        seeds: runs.len(),
+        heldout_perplexity: perplexity,
+        perplexity_sd,
+        npmi: mean(&|r| r.npmi),
+        umass: mean(&|r| r.umass),
+        stability: (!distances.is_empty()).then(|| distances.iter().sum::<f64>() / distances.len() as f64),
+    }
+}
+
+/// The report as TSV: one line per K.
+pub fn to_tsv(report: &SweepReport) -> String {
+    let mut out = String::from(
+        "topics\tseeds\theldout_perplexity\tperplexity_sd\tnpmi\tumass\tstability\trecommended\n",
+    );
+    for row in &report.rows {
+        out.push_str(&format!(
+            "{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\n",
+            row.topics,
+            row.seeds,
+            row.heldout_perplexity,
+            row.perplexity_sd,
+            row.npmi,
+            row.umass,
+            row.stability.map_or(String::new(), |s| s.to_string()),
+            row.topics == report.recommended_topics
+        ));
+    }
+    out
+}
