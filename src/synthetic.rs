@@ -82,26 +82,30 @@ pub fn from_topics(
         docs.push(doc);
         shares.push(theta);
     }
-    let n_words = word_names.len();
-    let mut word_counts = vec![0u64; n_words];
-    let mut doc_counts = vec![0u32; n_words];
-    for doc in &docs {
-        let mut seen = vec![false; n_words];
-        for &word in doc {
-            word_counts[word as usize] += 1;
-            if !seen[word as usize] {
-                seen[word as usize] = true;
-                doc_counts[word as usize] += 1;
-            }
-        }
-    }
-    let vocabulary = Vocabulary::from_parts(word_names, word_counts, doc_counts);
+    let vocabulary = vocabulary_of(&docs, word_names);
     Synthetic {
         corpus: Corpus::from_documents(vocabulary, docs),
         topics,
         shares,
         assignments,
     }
+}
+
+/// The vocabulary of generated documents: token and document counts per word.
+fn vocabulary_of(docs: &[Vec<u32>], word_names: Vec<String>) -> Vocabulary {
+    let n_words = word_names.len();
+    let mut word_counts = vec![0u64; n_words];
+    let mut doc_counts = vec![0u32; n_words];
+    for doc in docs {
+        let mut seen = vec![false; n_words];
+        for &word in doc {
+            word_counts[word as usize] += 1;
+            if !std::mem::replace(&mut seen[word as usize], true) {
+                doc_counts[word as usize] += 1;
+            }
+        }
+    }
+    Vocabulary::from_parts(word_names, word_counts, doc_counts)
 }
 
 /// The bars example (Griffiths & Steyvers 2004): a 5x5 pixel vocabulary,
@@ -165,19 +169,8 @@ pub fn two_topics(seed: u64) -> Synthetic {
         .iter()
         .map(|s| s.to_string())
         .collect();
-    let mut word_counts = vec![0u64; 5];
-    let mut doc_counts = vec![0u32; 5];
-    for doc in &docs {
-        let mut seen = [false; 5];
-        for &w in doc {
-            word_counts[w as usize] += 1;
-            if !std::mem::replace(&mut seen[w as usize], true) {
-                doc_counts[w as usize] += 1;
-            }
-        }
-    }
     Synthetic {
-        corpus: Corpus::from_documents(Vocabulary::from_parts(names, word_counts, doc_counts), docs),
+        corpus: Corpus::from_documents(vocabulary_of(&docs, names), docs),
         topics,
         shares,
         assignments,
