@@ -15,7 +15,9 @@ use serde::{Deserialize, Serialize};
 use crate::corpus::Corpus;
 use crate::model::{Model, Sample};
 use crate::priors::{self, CountHistogram, LearnSettings};
-use crate::sampler::{self, BetaPrior, CountState, Priors};
+use crate::sampler::{
+    self, BetaPrior, BlockKernel, CountState, MAX_TOKENS, MAX_TOPICS, Priors, ShardedSampler,
+};
 
 /// A prior given by the user: one value for all, one value per entry, or
 /// learned from the data.
@@ -71,10 +73,81 @@ pub const LEARN_START_ALPHA: f64 = 0.1;
 /// Starting value of a learned beta.
 pub const LEARN_START_BETA: f64 = 0.01;
 
+/// The sweep a fit runs.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub enum SamplerKind {
+    /// The plain O(K) collapsed Gibbs sweep on one thread (the oracle).
+    Reference,
+    /// Exact draws with cached coefficients, O(K) per token, over the block grid in parallel.
+    Exact,
+    /// Metropolis-Hastings steps with O(1) document and word proposals,
+    /// over the block grid in parallel.
+    Metropolis,
+}
+
+impl SamplerKind {
+    /// The name used in options and summaries.
+    pub fn name(self) -> &'static str {
+        match self {
+            SamplerKind::Reference => "reference",
+            SamplerKind::Exact => "exact",
+            SamplerKind::Metropolis => "metropolis",
+        }
+    }
+
+    /// The block kernel, for the parallel samplers.
+    fn block_kernel(self) -> Option<BlockKernel> {
+        match self {
+            SamplerKind::Reference => None,
+            SamplerKind::Exact => Some(BlockKernel::Exact),
+            SamplerKind::Metropolis => Some(BlockKernel::Metropolis),
+        }
+    }
+}
+
+/// Up to this many topics `auto` picks the exact sampler, above it the
+/// Metropolis-Hastings one (measured by `themata bench`: where the exact
+/// kernel's O(K) loop starts to cost more than the MH kernel's extra sweeps).
+pub const EXACT_UP_TO_TOPICS: usize = 300;
+
+/// The sampler asked for: a kind, or the automatic choice.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Deserialize, clap::ValueEnum)]
+#[serde(rename_all = "kebab-case")]
+pub enum SamplerChoice {
+    /// `exact` up to 300 topics, `metropolis` above.
+    #[default]
+    Auto,
+    /// Exact draws with cached coefficients, parallel over blocks.
+    Exact,
+    /// Metropolis-Hastings with O(1) document and word proposals, parallel over blocks.
+    Metropolis,
+    /// The plain O(K) collapsed Gibbs sweep, on one thread.
+    Reference,
+}
+
+impl SamplerChoice {
+    /// The sampler used for `n_topics` topics.
+    pub fn resolve(self, n_topics: usize) -> SamplerKind {
+        match self {
+            SamplerChoice::Reference => SamplerKind::Reference,
+            SamplerChoice::Exact => SamplerKind::Exact,
+            SamplerChoice::Metropolis => SamplerKind::Metropolis,
+            SamplerChoice::Auto if n_topics <= EXACT_UP_TO_TOPICS => SamplerKind::Exact,
+            SamplerChoice::Auto => SamplerKind::Metropolis,
+        }
+    }
+}
+
 /// The part of the fit settings that governs sweeps after the start; stored
 /// in the model so that continuing and resuming follow the same plan.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Schedule {
+    /// The sweep used.
+    pub sampler: SamplerKind,
+    /// Shards the documents are cut into for parallel sweeps (1 for the
+    /// reference sampler); fixed for the life of the model, so results never
+    /// depend on the thread count.
+    pub shards: u32,
     /// Sweeps before samples are kept and priors learned.
     pub burn_in: u64,
     /// Learn alpha (asymmetric) from the data.
@@ -104,6 +177,10 @@ pub struct FitSettings {
     pub lag: u64,
     pub seed: u64,
     pub trace_every: u64,
+    /// The sampler asked for.
+    pub sampler: SamplerChoice,
+    /// Shards for parallel sweeps; `None` picks one per 262,144 tokens (at most 32).
+    pub shards: Option<usize>,
 }
 
 impl FitSettings {
@@ -121,6 +198,8 @@ impl FitSettings {
             lag: 1,
             seed,
             trace_every: 10,
+            sampler: SamplerChoice::Auto,
+            shards: None,
         }
     }
 }
@@ -132,6 +211,8 @@ pub enum FitError {
     NoTopics,
     #[error("{topics} topics is more than the {tokens} tokens of the corpus; choose fewer topics")]
     TooManyTopics { topics: usize, tokens: usize },
+    #[error("{topics} topics is more than the {max} a model can hold; choose fewer topics")]
+    TopicLimit { topics: usize, max: usize },
     #[error("at least one iteration is needed")]
     NoIterations,
     #[error("burn-in ({burn_in}) must be smaller than the number of iterations ({iterations})")]
@@ -160,6 +241,8 @@ pub enum FitError {
     AsymmetricBetaLearning,
     #[error("the corpus has no tokens")]
     EmptyCorpus,
+    #[error("the corpus has {tokens} tokens, more than the {max} a model can hold; split it")]
+    CorpusTooLarge { tokens: usize, max: usize },
     #[error("learning the priors failed: {0}")]
     Learning(#[from] crate::priors::PriorError),
 }
@@ -261,6 +344,21 @@ pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Sched
             tokens: corpus.n_tokens(),
         });
     }
+    if corpus.n_tokens() > MAX_TOKENS {
+        return Err(FitError::CorpusTooLarge {
+            tokens: corpus.n_tokens(),
+            max: MAX_TOKENS,
+        });
+    }
+    if settings.n_topics > MAX_TOPICS {
+        return Err(FitError::TopicLimit {
+            topics: settings.n_topics,
+            max: MAX_TOPICS,
+        });
+    }
+    if settings.shards == Some(0) {
+        return Err(FitError::ZeroSetting { name: "shards" });
+    }
     if settings.iterations == 0 {
         return Err(FitError::NoIterations);
     }
@@ -305,7 +403,17 @@ pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Sched
     } else {
         BetaPrior::Asymmetric(beta)
     };
+    let sampler = settings.sampler.resolve(settings.n_topics);
+    let shards = match sampler {
+        SamplerKind::Reference => 1,
+        SamplerKind::Exact | SamplerKind::Metropolis => settings
+            .shards
+            .unwrap_or_else(|| sampler::default_shards(corpus.n_tokens()))
+            .min(corpus.n_docs().max(1)),
+    };
     let schedule = Schedule {
+        sampler,
+        shards: u32::try_from(shards).unwrap_or(u32::MAX),
         burn_in: settings.burn_in,
         learn_alpha: settings.alpha == PriorSpec::Learn,
         learn_beta: settings.beta == PriorSpec::Learn,
@@ -389,9 +497,21 @@ pub fn run_to_target(
     let doc_lengths = CountHistogram::from_counts(
         (0..model.corpus.n_docs()).map(|d| (model.corpus.offsets[d + 1] - model.corpus.offsets[d]) as u32),
     );
+    let kernel = model.schedule.sampler.block_kernel();
+    let mut sharded = kernel.map(|_| ShardedSampler::new(&model.corpus, model.schedule.shards as usize));
     while model.iterations_done < model.target {
         let started = Instant::now();
-        sampler::sweep_reference(&mut model.state, &model.corpus, &model.priors, &mut model.rng);
+        match (&mut sharded, kernel) {
+            (Some(engine), Some(kernel)) => engine.sweep(
+                kernel,
+                &mut model.state,
+                &model.corpus,
+                &model.priors,
+                model.seed,
+                model.iterations_done + 1,
+            ),
+            _ => sampler::sweep_reference(&mut model.state, &model.corpus, &model.priors, &mut model.rng),
+        }
         timing.sampling_seconds += started.elapsed().as_secs_f64();
         timing.token_updates += model.corpus.n_tokens() as u64;
         model.iterations_done += 1;
@@ -400,13 +520,7 @@ pub fn run_to_target(
 
         if done > schedule.burn_in && (done - schedule.burn_in).is_multiple_of(schedule.learn_every) {
             if schedule.learn_alpha {
-                let per_topic: Vec<CountHistogram> = (0..model.state.n_topics)
-                    .map(|k| {
-                        CountHistogram::from_counts(
-                            (0..model.corpus.n_docs()).map(|d| model.state.doc_topic_count(d, k)),
-                        )
-                    })
-                    .collect();
+                let per_topic = doc_topic_histograms(&model.state, &model.corpus);
                 model.priors.alpha =
                     priors::learn_alpha(&model.priors.alpha, &per_topic, &doc_lengths, &learn)?;
                 model.alpha_trace.push((done, model.priors.alpha.clone()));
@@ -414,7 +528,7 @@ pub fn run_to_target(
             if schedule.learn_beta
                 && let BetaPrior::Symmetric(beta) = model.priors.beta
             {
-                let word_topic = CountHistogram::from_counts(model.state.word_topic.iter().copied());
+                let word_topic = word_topic_histogram(&model.state);
                 let totals = CountHistogram::from_counts(model.state.topic_totals.iter().map(|&n| n as u32));
                 let learned =
                     priors::learn_symmetric_beta(beta, model.state.n_words, &word_topic, &totals, &learn)?;
@@ -444,6 +558,28 @@ pub fn run_to_target(
         }
     }
     Ok(timing)
+}
+
+/// For each topic, the histogram of its token count over documents (zeros left out).
+fn doc_topic_histograms(state: &CountState, corpus: &Corpus) -> Vec<CountHistogram> {
+    let mut per_topic: Vec<Vec<u32>> = vec![Vec::new(); state.n_topics];
+    for doc_idx in 0..corpus.n_docs() {
+        for (topic, count) in state.doc_topic_pairs(corpus, doc_idx) {
+            per_topic[topic as usize].push(count);
+        }
+    }
+    per_topic.into_iter().map(CountHistogram::from_counts).collect()
+}
+
+/// The histogram of every non-zero word-topic count.
+fn word_topic_histogram(state: &CountState) -> CountHistogram {
+    let mut counts = Vec::new();
+    for word_idx in 0..state.n_words {
+        state
+            .word_topic
+            .for_each_nonzero(word_idx, |_, count| counts.push(count));
+    }
+    CountHistogram::from_counts(counts)
 }
 
 /// A convergence judgement from the log-likelihood trace.

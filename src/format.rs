@@ -42,8 +42,16 @@ impl FileKind {
         }
     }
 
-    /// The format version this build writes and reads.
+    /// The format version this build writes.
     pub fn current_version(self) -> u32 {
+        match self {
+            FileKind::Corpus => 1,
+            FileKind::Model => 2,
+        }
+    }
+
+    /// The oldest format version this build still reads.
+    pub fn oldest_version(self) -> u32 {
         match self {
             FileKind::Corpus => 1,
             FileKind::Model => 1,
@@ -75,13 +83,14 @@ pub enum FormatError {
     )]
     BadMagic { path: PathBuf, expected: &'static str },
     #[error(
-        "{path}: {kind} format version {found} is not supported by this build (it reads version {supported}); rebuild the file with this version of themata"
+        "{path}: {kind} format version {found} is not supported by this build (it reads versions {oldest} to {newest}); rebuild the file with this version of themata"
     )]
     UnsupportedVersion {
         path: PathBuf,
         kind: &'static str,
         found: u32,
-        supported: u32,
+        oldest: u32,
+        newest: u32,
     },
     #[error(
         "{path}: file is truncated or padded (header says {expected} payload bytes, found {found}); the file is damaged, rebuild it"
@@ -137,8 +146,22 @@ pub fn encode<T: Serialize>(kind: FileKind, value: &T, path: &Path) -> Result<Ve
     Ok(bytes)
 }
 
-/// Checks the header of a framed file image and decodes its payload.
+/// Checks the header of a framed file image and decodes its payload, for a
+/// kind with one readable version (kinds with several use [`decode_versioned`]).
 pub fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) -> Result<T, FormatError> {
+    debug_assert_eq!(kind.oldest_version(), kind.current_version());
+    decode_versioned(kind, bytes, path, |_, payload| postcard::from_bytes(payload))
+}
+
+/// Checks the header of a framed file image (any version from
+/// [`FileKind::oldest_version`] to the current one) and decodes its payload
+/// with `decode_payload(version, payload)`.
+pub fn decode_versioned<T>(
+    kind: FileKind,
+    bytes: &[u8],
+    path: &Path,
+    decode_payload: impl FnOnce(u32, &[u8]) -> Result<T, postcard::Error>,
+) -> Result<T, FormatError> {
     let path_buf = || path.to_path_buf();
     if bytes.len() < 8 || &bytes[..8] != kind.magic() {
         return Err(FormatError::BadMagic {
@@ -154,12 +177,13 @@ pub fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) ->
         });
     }
     let version = u32::from_le_bytes(bytes[8..12].try_into().expect("4 bytes"));
-    if version != kind.current_version() {
+    if !(kind.oldest_version()..=kind.current_version()).contains(&version) {
         return Err(FormatError::UnsupportedVersion {
             path: path_buf(),
             kind: kind.name(),
             found: version,
-            supported: kind.current_version(),
+            oldest: kind.oldest_version(),
+            newest: kind.current_version(),
         });
     }
     let length = u64::from_le_bytes(bytes[12..20].try_into().expect("8 bytes"));
@@ -175,14 +199,14 @@ pub fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) ->
     if crc32fast::hash(payload) != checksum {
         return Err(FormatError::BadChecksum { path: path_buf() });
     }
-    postcard::from_bytes(payload).map_err(|err| FormatError::Decode {
+    decode_payload(version, payload).map_err(|err| FormatError::Decode {
         path: path_buf(),
         detail: err.to_string(),
     })
 }
 
-/// Reads and decodes a framed file.
-pub fn read_file<T: DeserializeOwned>(kind: FileKind, path: &Path) -> Result<T, FormatError> {
+/// Reads a framed file whole (see [`decode_versioned`]).
+pub fn read_bytes(path: &Path) -> Result<Vec<u8>, FormatError> {
     let mut bytes = Vec::new();
     File::open(path)
         .and_then(|mut file| file.read_to_end(&mut bytes))
@@ -192,7 +216,12 @@ pub fn read_file<T: DeserializeOwned>(kind: FileKind, path: &Path) -> Result<T, 
             },
             _ => FormatError::io(path, err),
         })?;
-    decode(kind, &bytes, path)
+    Ok(bytes)
+}
+
+/// Reads and decodes a framed file of a kind with one readable version.
+pub fn read_file<T: DeserializeOwned>(kind: FileKind, path: &Path) -> Result<T, FormatError> {
+    decode(kind, &read_bytes(path)?, path)
 }
 
 /// Encodes `value` and writes it to `path` crash-safely.

@@ -13,9 +13,9 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use crate::corpus::Corpus;
-use crate::fit::Schedule;
+use crate::fit::{SamplerKind, Schedule};
 use crate::format::{self, FileKind, FormatError};
-use crate::sampler::{BetaPrior, CountState, Priors};
+use crate::sampler::{BetaPrior, CountState, MAX_TOPICS, Priors, Topic};
 use crate::uncertainty::{self, Interval, UncertaintyError};
 
 /// Sparse rows of counts: for each row, `(column, count)` pairs with count > 0,
@@ -40,7 +40,7 @@ pub struct Sample {
 impl Sample {
     /// The sample of `model`'s current state.
     pub fn of(model: &Model, iteration: u64) -> Sample {
-        let (topic_word, doc_topic) = sparse_counts(&model.state, model.corpus.n_docs());
+        let (topic_word, doc_topic) = sparse_counts(&model.state, &model.corpus);
         Sample {
             iteration,
             priors: model.priors.clone(),
@@ -85,13 +85,13 @@ pub struct Model {
     pub samples: Vec<Sample>,
 }
 
-/// The on-disk shape of a model file (format version 1).
+/// The on-disk shape of a model file (format version 2).
 #[derive(Serialize, Deserialize)]
 struct ModelFile {
     corpus: Corpus,
     n_topics: u32,
     priors: Priors,
-    assignments: Vec<u32>,
+    assignments: Vec<Topic>,
     /// Per topic: (word, tokens of that word in the topic) for the current state.
     topic_word: SparseRows,
     /// Per document: (topic, tokens of the document in the topic) for the current state.
@@ -107,27 +107,92 @@ struct ModelFile {
     samples: Vec<Sample>,
 }
 
+/// The schedule of format version 1 (written by the reference sampler only).
+#[derive(Deserialize)]
+struct ScheduleV1 {
+    burn_in: u64,
+    learn_alpha: bool,
+    learn_beta: bool,
+    learn_every: u64,
+    samples: u64,
+    lag: u64,
+    trace_every: u64,
+}
+
+/// The on-disk shape of format version 1: 32-bit topic ids and no sampler
+/// or shard count in the schedule.
+#[derive(Deserialize)]
+struct ModelFileV1 {
+    corpus: Corpus,
+    n_topics: u32,
+    priors: Priors,
+    assignments: Vec<u32>,
+    topic_word: SparseRows,
+    doc_topic: SparseRows,
+    iterations_done: u64,
+    target: u64,
+    schedule: ScheduleV1,
+    seed: u64,
+    rng: Xoshiro256PlusPlus,
+    trace: Vec<(u64, f64)>,
+    alpha_trace: Vec<(u64, Vec<f64>)>,
+    beta_trace: Vec<(u64, f64)>,
+    samples: Vec<Sample>,
+}
+
+impl ModelFileV1 {
+    /// The same model in the current shape; it continues with the sampler
+    /// that wrote it. `None` when it has more topics than 16-bit ids hold.
+    fn upgrade(self) -> Option<ModelFile> {
+        if self.n_topics as usize > MAX_TOPICS {
+            return None;
+        }
+        let assignments = self
+            .assignments
+            .into_iter()
+            .map(|topic| Topic::try_from(topic).ok())
+            .collect::<Option<Vec<Topic>>>()?;
+        let old = self.schedule;
+        Some(ModelFile {
+            corpus: self.corpus,
+            n_topics: self.n_topics,
+            priors: self.priors,
+            assignments,
+            topic_word: self.topic_word,
+            doc_topic: self.doc_topic,
+            iterations_done: self.iterations_done,
+            target: self.target,
+            schedule: Schedule {
+                sampler: SamplerKind::Reference,
+                shards: 1,
+                burn_in: old.burn_in,
+                learn_alpha: old.learn_alpha,
+                learn_beta: old.learn_beta,
+                learn_every: old.learn_every,
+                samples: old.samples,
+                lag: old.lag,
+                trace_every: old.trace_every,
+            },
+            seed: self.seed,
+            rng: self.rng,
+            trace: self.trace,
+            alpha_trace: self.alpha_trace,
+            beta_trace: self.beta_trace,
+            samples: self.samples,
+        })
+    }
+}
+
 /// The topic-word and document-topic counts of a state as sparse rows.
-fn sparse_counts(state: &CountState, n_docs: usize) -> (SparseRows, SparseRows) {
-    let n_topics = state.n_topics;
-    let mut topic_word: SparseRows = vec![Vec::new(); n_topics];
+fn sparse_counts(state: &CountState, corpus: &Corpus) -> (SparseRows, SparseRows) {
+    let mut topic_word: SparseRows = vec![Vec::new(); state.n_topics];
     for word_idx in 0..state.n_words {
-        for (topic_idx, row) in topic_word.iter_mut().enumerate() {
-            let count = state.word_topic_count(word_idx, topic_idx);
-            if count > 0 {
-                row.push((word_idx as u32, count));
-            }
+        for (topic, count) in state.word_topic.row_pairs(word_idx) {
+            topic_word[topic as usize].push((word_idx as u32, count));
         }
     }
-    let doc_topic = (0..n_docs)
-        .map(|doc_idx| {
-            (0..n_topics)
-                .filter_map(|topic_idx| {
-                    let count = state.doc_topic_count(doc_idx, topic_idx);
-                    (count > 0).then_some((topic_idx as u32, count))
-                })
-                .collect()
-        })
+    let doc_topic = (0..corpus.n_docs())
+        .map(|doc_idx| state.doc_topic_pairs(corpus, doc_idx))
         .collect();
     (topic_word, doc_topic)
 }
@@ -282,7 +347,7 @@ impl Model {
     }
 
     fn to_file(&self) -> ModelFile {
-        let (topic_word, doc_topic) = sparse_counts(&self.state, self.corpus.n_docs());
+        let (topic_word, doc_topic) = sparse_counts(&self.state, &self.corpus);
         ModelFile {
             corpus: self.corpus.clone(),
             n_topics: self.n_topics() as u32,
@@ -304,7 +369,31 @@ impl Model {
 
     /// Reads a model file and checks that its counts agree with its assignments.
     pub fn load(path: &Path) -> Result<Model, FormatError> {
-        let file: ModelFile = format::read_file(FileKind::Model, path)?;
+        let bytes = format::read_bytes(path)?;
+        let mut too_many_topics = false;
+        let file: ModelFile = format::decode_versioned(FileKind::Model, &bytes, path, |version, payload| {
+            if version == 1 {
+                let old: ModelFileV1 = postcard::from_bytes(payload)?;
+                match old.upgrade() {
+                    Some(file) => Ok(file),
+                    None => {
+                        too_many_topics = true;
+                        Err(postcard::Error::DeserializeBadEncoding)
+                    }
+                }
+            } else {
+                postcard::from_bytes(payload)
+            }
+        })
+        .map_err(|err| match err {
+            FormatError::Decode { path, .. } if too_many_topics => FormatError::Decode {
+                path,
+                detail: format!(
+                    "the model has more than {MAX_TOPICS} topics, which this version cannot load"
+                ),
+            },
+            other => other,
+        })?;
         let mut corpus = file.corpus;
         corpus.vocabulary.rebuild_index();
         let bad = |detail: &str| FormatError::Decode {
@@ -323,7 +412,9 @@ impl Model {
         if n_topics == 0
             || !priors_fit(&file.priors)
             || file.assignments.len() != corpus.n_tokens()
+            || n_topics > MAX_TOPICS
             || file.assignments.iter().any(|&topic| topic as usize >= n_topics)
+            || file.schedule.shards == 0
         {
             return Err(bad("topic assignments do not fit the model's topics and tokens"));
         }
@@ -347,7 +438,7 @@ impl Model {
             ));
         }
         let state = CountState::from_assignments(&corpus, n_topics, file.assignments);
-        let (topic_word, doc_topic) = sparse_counts(&state, corpus.n_docs());
+        let (topic_word, doc_topic) = sparse_counts(&state, &corpus);
         if topic_word != file.topic_word || doc_topic != file.doc_topic {
             return Err(bad("stored counts disagree with the topic assignments"));
         }

@@ -313,7 +313,7 @@ impl FitSummary {
             burn_in: model.schedule.burn_in,
             seed: model.seed,
             threads,
-            sampler: "reference".to_string(),
+            sampler: model.schedule.sampler.name().to_string(),
             alpha: model.priors.alpha.clone(),
             beta: match &model.priors.beta {
                 BetaPrior::Symmetric(value) => serde_json::json!(value),

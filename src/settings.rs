@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 use serde::Deserialize;
 
-use crate::fit::{FitSettings, PriorSpec};
+use crate::fit::{FitSettings, PriorSpec, SamplerChoice};
 use crate::read::{InputFormat, ReadOptions};
 use crate::tokenize::{self, TokenizerSettings};
 use crate::vocab::PruneRules;
@@ -298,6 +298,12 @@ pub struct FitOptions {
     /// Keep this fraction of documents out of training and report their held-out perplexity [default: 0]
     #[arg(long, value_name = "F")]
     pub holdout: Option<f64>,
+    /// Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), both parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (exact up to 300 topics, metropolis above) [default: auto]
+    #[arg(long, value_enum, value_name = "NAME")]
+    pub sampler: Option<SamplerChoice>,
+    /// Shards for parallel sweeps: documents and words are each cut into N parts, giving N x N blocks; fixed per model, so the thread count never changes the result [default: one per 262,144 tokens, at most 32]
+    #[arg(long, value_name = "N")]
+    pub shards: Option<usize>,
 }
 overlay!(FitOptions {
     topics,
@@ -311,7 +317,9 @@ overlay!(FitOptions {
     seed,
     threads,
     trace_every,
-    holdout
+    holdout,
+    sampler,
+    shards
 });
 
 /// Fit settings plus the thread count (which never changes the result) and
@@ -377,6 +385,9 @@ impl FitOptions {
                 ),
             ));
         }
+        if self.shards == Some(0) {
+            return Err(invalid("shards", "must be at least 1"));
+        }
         let holdout = self.holdout.unwrap_or(0.0);
         if !(0.0..1.0).contains(&holdout) {
             return Err(invalid(
@@ -397,6 +408,8 @@ impl FitOptions {
                 lag,
                 seed: self.seed.unwrap_or(1),
                 trace_every,
+                sampler: self.sampler.unwrap_or_default(),
+                shards: self.shards,
             },
             threads,
         })

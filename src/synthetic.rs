@@ -4,6 +4,7 @@
 //! (2004) and the two-topic toy of Steyvers & Griffiths (2007).
 
 use rand::{RngExt, SeedableRng};
+use rand_distr::weighted::WeightedAliasIndex;
 use rand_distr::{Distribution, Gamma};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
@@ -93,19 +94,146 @@ pub fn from_topics(
 
 /// The vocabulary of generated documents: token and document counts per word.
 fn vocabulary_of(docs: &[Vec<u32>], word_names: Vec<String>) -> Vocabulary {
-    let n_words = word_names.len();
-    let mut word_counts = vec![0u64; n_words];
-    let mut doc_counts = vec![0u32; n_words];
+    let mut counter = WordCounter::new(word_names.len());
     for doc in docs {
-        let mut seen = vec![false; n_words];
+        counter.add_document(doc);
+    }
+    counter.into_vocabulary(word_names)
+}
+
+/// Token and document counts per word, one document at a time, in O(tokens).
+struct WordCounter {
+    word_counts: Vec<u64>,
+    doc_counts: Vec<u32>,
+    /// The last document (1-based) each word was seen in.
+    last_doc: Vec<usize>,
+    docs_seen: usize,
+}
+
+impl WordCounter {
+    fn new(n_words: usize) -> WordCounter {
+        WordCounter {
+            word_counts: vec![0; n_words],
+            doc_counts: vec![0; n_words],
+            last_doc: vec![0; n_words],
+            docs_seen: 0,
+        }
+    }
+
+    fn add_document(&mut self, doc: &[u32]) {
+        self.docs_seen += 1;
         for &word in doc {
-            word_counts[word as usize] += 1;
-            if !std::mem::replace(&mut seen[word as usize], true) {
-                doc_counts[word as usize] += 1;
+            let word = word as usize;
+            self.word_counts[word] += 1;
+            if self.last_doc[word] != self.docs_seen {
+                self.last_doc[word] = self.docs_seen;
+                self.doc_counts[word] += 1;
             }
         }
     }
-    Vocabulary::from_parts(word_names, word_counts, doc_counts)
+
+    fn into_vocabulary(self, word_names: Vec<String>) -> Vocabulary {
+        Vocabulary::from_parts(word_names, self.word_counts, self.doc_counts)
+    }
+}
+
+/// The shape of a large synthetic corpus for benchmarks.
+#[derive(Clone, Debug, PartialEq)]
+pub struct UrnCorpusSettings {
+    /// Tokens to generate (the last document is cut to fit).
+    pub n_tokens: usize,
+    /// Vocabulary size V.
+    pub n_words: usize,
+    /// Topics K.
+    pub n_topics: usize,
+    /// Mean document length; lengths are uniform on [mean/2, 3 mean/2].
+    pub mean_doc_len: usize,
+    /// Symmetric document-topic concentration per topic.
+    pub alpha: f64,
+    /// Topic-word concentration per word: each topic is
+    /// Dirichlet(beta * V * zipf), zipf the base word frequencies.
+    pub beta: f64,
+    /// Exponent s of the base word frequencies, `p(rank r) ∝ 1 / r^s`.
+    pub zipf_exponent: f64,
+    /// Seed of the random stream.
+    pub seed: u64,
+}
+
+/// A corpus drawn from the LDA generative process in its Pólya-urn form
+/// (Blackwell & MacQueen 1973): integrating out theta_d ~ Dirichlet(alpha)
+/// and phi_k ~ Dirichlet(b0 * zipf), token n of a document takes the topic of
+/// a uniformly chosen earlier token of the document with probability
+/// `n / (n + a0)`, else a topic drawn from alpha; and a token of topic k takes
+/// the word of a uniformly chosen earlier token of topic k with probability
+/// `m_k / (m_k + b0)`, else a word from the Zipf base. This is exactly the
+/// Dirichlet-multinomial marginal of the generative process, costs O(1) per
+/// token, and never holds a K x V matrix, so it scales to the sizes
+/// `themata bench` needs. Word ids are Zipf ranks (0 is the most frequent).
+pub fn urn_corpus(settings: &UrnCorpusSettings) -> Corpus {
+    let UrnCorpusSettings {
+        n_tokens,
+        n_words,
+        n_topics,
+        mean_doc_len,
+        alpha,
+        beta,
+        zipf_exponent,
+        seed,
+    } = settings.clone();
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    let zipf: Vec<f64> = (1..=n_words)
+        .map(|rank| (rank as f64).powf(-zipf_exponent))
+        .collect();
+    let base = WeightedAliasIndex::new(zipf).expect("positive Zipf weights");
+    let alpha_sum = alpha * n_topics as f64;
+    let beta_sum = beta * n_words as f64;
+    let mut topic_words: Vec<Vec<u32>> = vec![Vec::new(); n_topics];
+    let mut tokens = Vec::with_capacity(n_tokens);
+    let mut offsets = vec![0u64];
+    let mut doc_topics: Vec<usize> = Vec::new();
+    let mut counter = WordCounter::new(n_words);
+    let mean = mean_doc_len.max(2);
+    while tokens.len() < n_tokens {
+        let doc_len = rng
+            .random_range(mean / 2..=mean + mean / 2)
+            .min(n_tokens - tokens.len());
+        doc_topics.clear();
+        let doc_start = tokens.len();
+        for position in 0..doc_len {
+            let topic = if rng.random::<f64>() * (position as f64 + alpha_sum) < position as f64 {
+                doc_topics[rng.random_range(0..position)]
+            } else {
+                rng.random_range(0..n_topics)
+            };
+            doc_topics.push(topic);
+            let earlier = &mut topic_words[topic];
+            let seen = earlier.len();
+            let word = if rng.random::<f64>() * (seen as f64 + beta_sum) < seen as f64 {
+                earlier[rng.random_range(0..seen)]
+            } else {
+                base.sample(&mut rng) as u32
+            };
+            earlier.push(word);
+            tokens.push(word);
+        }
+        counter.add_document(&tokens[doc_start..]);
+        offsets.push(tokens.len() as u64);
+    }
+    let documents = (0..offsets.len() - 1)
+        .map(|idx| crate::corpus::DocumentInfo {
+            id: format!("doc-{idx}"),
+            label: None,
+            source: String::new(),
+        })
+        .collect();
+    let names = (0..n_words).map(|w| format!("w{w}")).collect();
+    Corpus {
+        tokenizer: crate::tokenize::TokenizerSettings::default(),
+        vocabulary: counter.into_vocabulary(names),
+        documents,
+        offsets,
+        tokens,
+    }
 }
 
 /// The bars example (Griffiths & Steyvers 2004): a 5x5 pixel vocabulary,

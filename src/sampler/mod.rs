@@ -7,9 +7,20 @@
 //!
 //! This module does no I/O.
 
+mod counts;
+mod exact;
+mod metropolis;
+mod prefetch;
 mod reference;
+mod sharded;
 
+pub use counts::{RowLayout, RowsMut, WordTopicCounts};
+pub use metropolis::CYCLES_PER_TOKEN;
 pub use reference::{conditional, sweep_reference};
+pub use sharded::{
+    BlockKernel, MAX_TOKENS, Shard, ShardedSampler, block_stream, default_shards, plan_shards,
+    plan_word_groups,
+};
 
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
@@ -58,7 +69,20 @@ impl Priors {
     }
 }
 
-/// Topic assignments of every token and the counts they imply.
+/// A topic id. Topics are counted in 16 bits, so a model has at most
+/// [`MAX_TOPICS`] topics.
+pub type Topic = u16;
+
+/// The largest number of topics a model can have.
+pub const MAX_TOPICS: usize = 1 << 16;
+
+/// Topic assignments of every token and the counts they imply, in a compact
+/// layout: 16-bit topic ids in document order, word-topic counts with a
+/// dense or sparse row per word ([`WordTopicCounts`]), and topic totals.
+/// Document-topic counts are not stored: a document's tokens are contiguous,
+/// so its counts are read off its assignments when needed
+/// ([`CountState::doc_topic_pairs`]), and samplers keep one dense row for the
+/// document they are in.
 #[derive(Clone, Debug, PartialEq)]
 pub struct CountState {
     /// Number of topics, K.
@@ -66,56 +90,85 @@ pub struct CountState {
     /// Number of vocabulary words, V.
     pub n_words: usize,
     /// Topic of each token, parallel to `Corpus::tokens`.
-    pub assignments: Vec<u32>,
-    /// `doc_topic[d * K + k]` = tokens of document d assigned to topic k.
-    pub doc_topic: Vec<u32>,
-    /// `word_topic[w * K + k]` = tokens of word w assigned to topic k.
-    pub word_topic: Vec<u32>,
+    pub assignments: Vec<Topic>,
+    /// `n_kw`, the tokens of word w assigned to topic k.
+    pub word_topic: WordTopicCounts,
     /// `topic_totals[k]` = tokens assigned to topic k.
     pub topic_totals: Vec<u64>,
 }
 
+/// Tokens of each vocabulary word in `corpus`.
+pub fn word_token_counts(corpus: &Corpus) -> Vec<u64> {
+    let mut counts = vec![0u64; corpus.vocabulary.len()];
+    for &word in &corpus.tokens {
+        counts[word as usize] += 1;
+    }
+    counts
+}
+
 impl CountState {
     /// Builds the counts implied by `assignments` over `corpus`.
-    pub fn from_assignments(corpus: &Corpus, n_topics: usize, assignments: Vec<u32>) -> CountState {
-        let n_words = corpus.vocabulary.len();
-        let mut state = CountState {
-            n_topics,
-            n_words,
-            assignments,
-            doc_topic: vec![0; corpus.n_docs() * n_topics],
-            word_topic: vec![0; n_words * n_topics],
-            topic_totals: vec![0; n_topics],
-        };
-        for doc_idx in 0..corpus.n_docs() {
-            let start = corpus.offsets[doc_idx] as usize;
-            for (pos, &word) in corpus.doc_tokens(doc_idx).iter().enumerate() {
-                let topic = state.assignments[start + pos] as usize;
-                state.doc_topic[doc_idx * n_topics + topic] += 1;
-                state.word_topic[word as usize * n_topics + topic] += 1;
-                state.topic_totals[topic] += 1;
-            }
+    pub fn from_assignments(corpus: &Corpus, n_topics: usize, assignments: Vec<Topic>) -> CountState {
+        assert!(n_topics <= MAX_TOPICS, "at most {MAX_TOPICS} topics");
+        let mut word_topic = WordTopicCounts::new(&word_token_counts(corpus), n_topics);
+        let mut topic_totals = vec![0u64; n_topics];
+        for (&word, &topic) in corpus.tokens.iter().zip(&assignments) {
+            word_topic.increment(word as usize, topic);
+            topic_totals[topic as usize] += 1;
         }
-        state
+        CountState {
+            n_topics,
+            n_words: corpus.vocabulary.len(),
+            assignments,
+            word_topic,
+            topic_totals,
+        }
     }
 
     /// Assigns every token a topic drawn uniformly at random.
     pub fn random(corpus: &Corpus, n_topics: usize, rng: &mut impl rand::Rng) -> CountState {
         use rand::RngExt;
         let assignments = (0..corpus.n_tokens())
-            .map(|_| rng.random_range(0..n_topics as u32))
+            .map(|_| rng.random_range(0..n_topics as u32) as Topic)
             .collect();
         CountState::from_assignments(corpus, n_topics, assignments)
     }
 
-    /// Tokens of document `doc_idx` in topic `topic_idx`.
-    pub fn doc_topic_count(&self, doc_idx: usize, topic_idx: usize) -> u32 {
-        self.doc_topic[doc_idx * self.n_topics + topic_idx]
+    /// The non-zero topic counts of document `doc_idx` as `(topic, count)`,
+    /// topics increasing.
+    pub fn doc_topic_pairs(&self, corpus: &Corpus, doc_idx: usize) -> Vec<(u32, u32)> {
+        let range = corpus.offsets[doc_idx] as usize..corpus.offsets[doc_idx + 1] as usize;
+        let mut topics = self.assignments[range].to_vec();
+        topics.sort_unstable();
+        let mut pairs: Vec<(u32, u32)> = Vec::new();
+        for topic in topics {
+            match pairs.last_mut() {
+                Some((last, count)) if *last == u32::from(topic) => *count += 1,
+                _ => pairs.push((u32::from(topic), 1)),
+            }
+        }
+        pairs
+    }
+
+    /// Tokens of document `doc_idx` in topic `topic_idx` (a scan of the document).
+    pub fn doc_topic_count(&self, corpus: &Corpus, doc_idx: usize, topic_idx: usize) -> u32 {
+        let range = corpus.offsets[doc_idx] as usize..corpus.offsets[doc_idx + 1] as usize;
+        self.assignments[range]
+            .iter()
+            .filter(|&&topic| topic as usize == topic_idx)
+            .count() as u32
     }
 
     /// Tokens of word `word_idx` in topic `topic_idx`.
     pub fn word_topic_count(&self, word_idx: usize, topic_idx: usize) -> u32 {
-        self.word_topic[word_idx * self.n_topics + topic_idx]
+        self.word_topic.get(word_idx, topic_idx as Topic)
+    }
+
+    /// Bytes of memory the state holds.
+    pub fn heap_bytes(&self) -> usize {
+        self.assignments.len() * std::mem::size_of::<Topic>()
+            + self.word_topic.heap_bytes()
+            + self.topic_totals.len() * 8
     }
 }
 
@@ -136,51 +189,51 @@ impl LogLikelihood {
 }
 
 /// Computes the joint log-likelihood of the current state (Heinrich 2005
-/// forms, which allow asymmetric priors). Per-topic and per-document terms
-/// are computed in parallel and summed in a fixed order, so the value does
-/// not depend on the number of threads.
+/// forms, which allow asymmetric priors), visiting only non-zero counts:
+/// a zero count adds `lgamma(prior) - lgamma(prior) = 0` against the prior
+/// term, so
+///
+/// `log p(w|z) = K lgamma(b0) - sum_k lgamma(n_k + b0) + sum_{n_kw > 0} [lgamma(n_kw + beta_w) - lgamma(beta_w)]`
+///
+/// and likewise for `log p(z|alpha)` per document. Per-word and per-document
+/// terms are computed in parallel and summed in a fixed order, so the value
+/// does not depend on the number of threads.
 pub fn log_likelihood(state: &CountState, corpus: &Corpus, priors: &Priors) -> LogLikelihood {
-    let n_topics = state.n_topics;
     let n_words = state.n_words;
     let beta_sum = priors.beta_sum(n_words);
-    let beta_lgamma_sum: f64 = (0..n_words).map(|w| ln_gamma(priors.beta_of(w))).sum();
-    let per_topic: Vec<f64> = (0..n_topics)
+    let per_word: Vec<f64> = (0..n_words)
         .into_par_iter()
-        .map(|topic_idx| {
-            let mut sum = ln_gamma(beta_sum) - beta_lgamma_sum;
-            for word_idx in 0..n_words {
-                let count = state.word_topic_count(word_idx, topic_idx);
-                let beta = priors.beta_of(word_idx);
-                if count > 0 {
-                    sum += ln_gamma(f64::from(count) + beta);
-                } else {
-                    sum += ln_gamma(beta);
-                }
-            }
-            sum - ln_gamma(state.topic_totals[topic_idx] as f64 + beta_sum)
+        .map(|word_idx| {
+            let beta = priors.beta_of(word_idx);
+            let beta_lgamma = ln_gamma(beta);
+            let mut sum = 0.0;
+            state.word_topic.for_each_nonzero(word_idx, |_, count| {
+                sum += ln_gamma(f64::from(count) + beta) - beta_lgamma;
+            });
+            sum
         })
         .collect();
+    let totals_part: f64 = state
+        .topic_totals
+        .iter()
+        .map(|&total| ln_gamma(beta_sum) - ln_gamma(total as f64 + beta_sum))
+        .sum();
     let alpha_sum = priors.alpha_sum();
-    let alpha_lgamma_sum: f64 = priors.alpha.iter().map(|&a| ln_gamma(a)).sum();
     let alpha_lgamma: Vec<f64> = priors.alpha.iter().map(|&a| ln_gamma(a)).collect();
     let per_doc: Vec<f64> = (0..corpus.n_docs())
         .into_par_iter()
         .map(|doc_idx| {
-            let mut sum = ln_gamma(alpha_sum) - alpha_lgamma_sum;
-            for (topic_idx, &alpha) in priors.alpha.iter().enumerate() {
-                let count = state.doc_topic_count(doc_idx, topic_idx);
-                sum += if count > 0 {
-                    ln_gamma(f64::from(count) + alpha)
-                } else {
-                    alpha_lgamma[topic_idx]
-                };
-            }
             let doc_len = (corpus.offsets[doc_idx + 1] - corpus.offsets[doc_idx]) as f64;
-            sum - ln_gamma(doc_len + alpha_sum)
+            let mut sum = ln_gamma(alpha_sum) - ln_gamma(doc_len + alpha_sum);
+            for (topic, count) in state.doc_topic_pairs(corpus, doc_idx) {
+                let alpha = priors.alpha[topic as usize];
+                sum += ln_gamma(f64::from(count) + alpha) - alpha_lgamma[topic as usize];
+            }
+            sum
         })
         .collect();
     LogLikelihood {
-        words: per_topic.iter().sum(),
+        words: totals_part + per_word.iter().sum::<f64>(),
         topics: per_doc.iter().sum(),
     }
 }

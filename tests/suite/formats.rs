@@ -76,3 +76,31 @@ fn damaged_model_files_are_refused_not_panicked_on() {
     let err = Model::load(&corpus_path).err().unwrap();
     assert!(err.to_string().contains("not a themata model file"), "{err}");
 }
+
+#[test]
+fn version_one_model_files_still_load() {
+    // Source: tests/fixtures/model-v1.bin, written by themata 0.1.0 (commit
+    // 1bf2409, the last version-1 writer) with `fit -k 2 --iterations 30
+    // --burn-in 10 --samples 2 --lag 5 --trace-every 5 --seed 5` on the
+    // corpus built from tests/fixtures/model-v1-source.jsonl; the weights
+    // below are what `show --format tsv` printed then.
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/model-v1.bin");
+    let model = Model::load(&path).unwrap();
+    assert_eq!(model.n_topics(), 2);
+    assert_eq!(model.corpus.n_tokens(), 28);
+    assert_eq!(model.iterations_done, 30);
+    assert_eq!(model.samples.len(), 2);
+    // An old model continues with the sampler that wrote it.
+    assert_eq!(model.schedule.sampler, themata::fit::SamplerKind::Reference);
+    let teapot = model.corpus.vocabulary.id("teapot").unwrap() as usize;
+    let pedal = model.corpus.vocabulary.id("pedal").unwrap() as usize;
+    assert!((model.topic_word_row(0)[teapot] - 0.3289401139173447).abs() < 1e-12);
+    assert!((model.topic_word_row(1)[pedal] - 0.2863164281761433).abs() < 1e-12);
+    // Saved again, it is written in the current version and loads back the same.
+    let scratch = Scratch::new();
+    let again = scratch.path("m.bin");
+    model.save(&again).unwrap();
+    let back = Model::load(&again).unwrap();
+    assert_eq!(back.state, model.state);
+    assert_eq!(back.samples, model.samples);
+}

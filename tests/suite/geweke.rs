@@ -8,7 +8,7 @@
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 use themata::corpus::Corpus;
-use themata::sampler::{BetaPrior, CountState, Priors, sweep_reference};
+use themata::sampler::{BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, sweep_reference};
 use themata::synthetic::{categorical, dirichlet};
 use themata::vocab::Vocabulary;
 
@@ -27,7 +27,7 @@ fn priors() -> Priors {
 }
 
 /// One forward draw of (w, z) from the generative model.
-fn forward(rng: &mut Xoshiro256PlusPlus) -> (Vec<Vec<u32>>, Vec<u32>) {
+fn forward(rng: &mut Xoshiro256PlusPlus) -> (Vec<Vec<u32>>, Vec<Topic>) {
     let phi: Vec<Vec<f64>> = (0..N_TOPICS).map(|_| dirichlet(&[BETA; N_WORDS], rng)).collect();
     let mut docs = Vec::new();
     let mut z = Vec::new();
@@ -37,7 +37,7 @@ fn forward(rng: &mut Xoshiro256PlusPlus) -> (Vec<Vec<u32>>, Vec<u32>) {
         for _ in 0..len {
             let topic = categorical(&theta, rng);
             doc.push(categorical(&phi[topic], rng) as u32);
-            z.push(topic as u32);
+            z.push(topic as Topic);
         }
         docs.push(doc);
     }
@@ -60,7 +60,7 @@ const N_STATS: usize = 7;
 /// 0's tokens in topic 0 and its square, whether tokens 0 and 1 share a
 /// topic, whether all of doc 1 is in one topic, word 0's count.
 fn statistics(corpus: &Corpus, state: &CountState) -> [f64; N_STATS] {
-    let n00 = f64::from(state.doc_topic_count(0, 0));
+    let n00 = f64::from(state.doc_topic_count(corpus, 0, 0));
     let m00 = f64::from(state.word_topic_count(0, 0));
     let doc1 = &state.assignments[DOC_LENS[0]..];
     [
@@ -77,17 +77,22 @@ fn statistics(corpus: &Corpus, state: &CountState) -> [f64; N_STATS] {
 /// Regenerates every word given the topics: w_i ~ p(w_i | z, w_-i) under the
 /// collapsed model, proportional to n_{z_i, w}^{-i} + beta.
 fn resample_words(corpus: &mut Corpus, state: &mut CountState, rng: &mut Xoshiro256PlusPlus) {
+    // The word-topic table's layout depends on each word's token count,
+    // which changes here; work on plain counts, then rebuild the state.
+    let mut counts = [[0u32; N_TOPICS]; N_WORDS];
+    for (&word, &topic) in corpus.tokens.iter().zip(&state.assignments) {
+        counts[word as usize][topic as usize] += 1;
+    }
     for token_idx in 0..corpus.tokens.len() {
         let topic = state.assignments[token_idx] as usize;
         let old = corpus.tokens[token_idx] as usize;
-        state.word_topic[old * N_TOPICS + topic] -= 1;
-        let weights: Vec<f64> = (0..N_WORDS)
-            .map(|w| f64::from(state.word_topic[w * N_TOPICS + topic]) + BETA)
-            .collect();
+        counts[old][topic] -= 1;
+        let weights: Vec<f64> = (0..N_WORDS).map(|w| f64::from(counts[w][topic]) + BETA).collect();
         let new = categorical(&weights, rng);
-        state.word_topic[new * N_TOPICS + topic] += 1;
+        counts[new][topic] += 1;
         corpus.tokens[token_idx] = new as u32;
     }
+    *state = CountState::from_assignments(corpus, N_TOPICS, std::mem::take(&mut state.assignments));
 }
 
 type Sweep = fn(&mut CountState, &Corpus, &Priors, &mut Xoshiro256PlusPlus);
@@ -148,28 +153,50 @@ fn broken_sweep(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &
         for (pos, &word) in corpus.doc_tokens(doc_idx).iter().enumerate() {
             let token_idx = start + pos;
             let w = word as usize;
-            let old = state.assignments[token_idx] as usize;
-            state.doc_topic[doc_idx * k + old] -= 1;
-            state.word_topic[w * k + old] -= 1;
-            state.topic_totals[old] -= 1;
+            let old = state.assignments[token_idx];
+            state.word_topic.decrement(w, old);
+            state.topic_totals[old as usize] -= 1;
+            // A placeholder topic, so the document count below leaves the token out.
+            state.assignments[token_idx] = Topic::MAX;
             let weights: Vec<f64> = (0..k)
                 .map(|t| {
-                    (f64::from(state.word_topic[w * k + t]) + priors.beta_of(w))
+                    (f64::from(state.word_topic_count(w, t)) + priors.beta_of(w))
                         / (state.topic_totals[t] as f64 + priors.beta_of(w))
-                        * (f64::from(state.doc_topic[doc_idx * k + t]) + priors.alpha[t])
+                        * (f64::from(state.doc_topic_count(corpus, doc_idx, t)) + priors.alpha[t])
                 })
                 .collect();
-            let new = categorical(&weights, rng);
-            state.assignments[token_idx] = new as u32;
-            state.doc_topic[doc_idx * k + new] += 1;
-            state.word_topic[w * k + new] += 1;
-            state.topic_totals[new] += 1;
+            let new = categorical(&weights, rng) as Topic;
+            state.assignments[token_idx] = new;
+            state.word_topic.increment(w, new);
+            state.topic_totals[new as usize] += 1;
         }
     }
 }
 
 fn reference(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut Xoshiro256PlusPlus) {
     sweep_reference(state, corpus, priors, rng);
+}
+
+/// A block sampler on a grid of one block (exact sequential sweeps), its
+/// sweep number and seed drawn from the test's stream.
+fn block_sweep(
+    kernel: BlockKernel,
+    state: &mut CountState,
+    corpus: &Corpus,
+    priors: &Priors,
+    rng: &mut Xoshiro256PlusPlus,
+) {
+    use rand::Rng;
+    let mut engine = ShardedSampler::new(corpus, 1);
+    engine.sweep(kernel, state, corpus, priors, rng.next_u64(), rng.next_u64());
+}
+
+fn metropolis(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut Xoshiro256PlusPlus) {
+    block_sweep(BlockKernel::Metropolis, state, corpus, priors, rng);
+}
+
+fn exact(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut Xoshiro256PlusPlus) {
+    block_sweep(BlockKernel::Exact, state, corpus, priors, rng);
 }
 
 #[test]
@@ -179,6 +206,22 @@ fn reference_sampler_gets_it_right() {
     // so |z| > 4 has probability about 6e-5 per statistic.
     let worst = largest_z(reference, 41);
     eprintln!("reference sampler: largest |z| = {worst:.2}");
+    assert!(worst < 4.0, "largest |z| = {worst:.2}");
+}
+
+#[test]
+fn metropolis_sampler_gets_it_right() {
+    // Source: Geweke 2004 (JASA 99); tolerance as for the reference sampler.
+    let worst = largest_z(metropolis, 43);
+    eprintln!("metropolis sampler: largest |z| = {worst:.2}");
+    assert!(worst < 4.0, "largest |z| = {worst:.2}");
+}
+
+#[test]
+fn exact_sampler_gets_it_right() {
+    // Source: Geweke 2004 (JASA 99); tolerance as for the reference sampler.
+    let worst = largest_z(exact, 47);
+    eprintln!("exact sampler: largest |z| = {worst:.2}");
     assert!(worst < 4.0, "largest |z| = {worst:.2}");
 }
 

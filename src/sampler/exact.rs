@@ -1,0 +1,203 @@
+//! The exact kernel for few topics: each token's topic is drawn from its
+//! full conditional, as in the reference sweep, but without a division in
+//! the O(K) loop. Following the coefficient caching of Yao, Mimno &
+//! McCallum (KDD 2009), the conditional is written
+//!
+//! `p(k) ∝ (n_kw + beta_w) * c_k`, with `c_k = (n_dk + alpha_k) / (n_k + b0)`,
+//!
+//! and `c_k` is kept up to date as counts change: `1 / (n_k + b0)` is kept
+//! per topic and recomputed for the two topics a token leaves and joins, and
+//! `c_k` is refreshed for those topics and for the topics of the document
+//! being sampled when it starts and ends. The K weights are then one
+//! multiply-add each, summed in blocks of eight so that the draw scans at
+//! most K/8 + 8 partial sums.
+//!
+//! Sparse word rows are spread into K dense counters first, so the weights
+//! are always visited in topic order and the draw never depends on how a
+//! sparse row happens to be laid out.
+
+use rand::RngExt;
+
+use super::prefetch::prefetch;
+use super::sharded::{Block, BlockContext, Workspace, block_stream};
+use super::{BetaPrior, Priors, Topic};
+
+/// Weights summed together before the draw scans them.
+const CHUNK: usize = 8;
+/// Tokens ahead whose word record is prefetched.
+const RECORD_AHEAD: usize = 4;
+
+/// The sum of eight weights as a balanced tree (three dependent additions
+/// instead of seven).
+#[inline(always)]
+fn tree_sum(w: &[f64; CHUNK]) -> f64 {
+    ((w[0] + w[1]) + (w[2] + w[3])) + ((w[4] + w[5]) + (w[6] + w[7]))
+}
+
+/// The per-sweep constants of the exact kernel.
+pub struct ExactKernel<'a> {
+    alpha: &'a [f64],
+    beta: &'a BetaPrior,
+    beta_sum: f64,
+    n_topics: usize,
+}
+
+/// Scratch space of the exact kernel (per thread, reused across blocks).
+#[derive(Debug, Default)]
+pub struct ExactScratch {
+    /// `1 / (n_k + b0)` from the block's view of the totals.
+    inverse_total: Vec<f64>,
+    /// `c_k = (n_dk + alpha_k) / (n_k + b0)` for the current document.
+    coefficient: Vec<f64>,
+    /// The current token's weights.
+    weights: Vec<f64>,
+    /// Sums of `CHUNK` consecutive weights.
+    chunk_sums: Vec<f64>,
+    /// Dense copy of a sparse word row (all zero between tokens).
+    word_row: Vec<u32>,
+}
+
+impl<'a> ExactKernel<'a> {
+    /// The kernel for one sweep with these priors.
+    pub fn new(priors: &'a Priors, n_topics: usize, n_words: usize) -> ExactKernel<'a> {
+        ExactKernel {
+            alpha: &priors.alpha,
+            beta: &priors.beta,
+            beta_sum: priors.beta_sum(n_words),
+            n_topics,
+        }
+    }
+
+    /// Samples every token of `block` once, document by document.
+    pub fn sample_block(&self, context: &BlockContext<'_>, block: Block<'_>, workspace: &mut Workspace) {
+        // The word-major list is not read by this kernel, so it is not kept
+        // up to date here; every sweep starts by rebuilding it.
+        let Block {
+            index,
+            shard,
+            group,
+            topics,
+            mut rows,
+            ..
+        } = block;
+        let Workspace {
+            topic_totals,
+            doc_counts,
+            exact,
+            ..
+        } = workspace;
+        let n_topics = self.n_topics;
+        let n_chunks = n_topics.div_ceil(CHUNK);
+        exact.inverse_total.resize(n_topics, 0.0);
+        exact.coefficient.resize(n_topics, 0.0);
+        exact.weights.resize(n_chunks * CHUNK, 0.0);
+        exact.chunk_sums.resize(n_chunks, 0.0);
+        exact.word_row.resize(n_topics, 0);
+        let ExactScratch {
+            inverse_total,
+            coefficient,
+            weights,
+            chunk_sums,
+            word_row,
+        } = exact;
+        let beta_sum = self.beta_sum;
+        let alpha = self.alpha;
+        for topic in 0..n_topics {
+            inverse_total[topic] = 1.0 / (topic_totals[topic] as f64 + beta_sum);
+            coefficient[topic] = alpha[topic] * inverse_total[topic];
+        }
+        let mut rng = block_stream(context.seed, context.iteration, index);
+        let first_token = shard.tokens.start;
+        let stride = context.groups_stride;
+        for doc in shard.docs.clone() {
+            let groups = &context.doc_groups[doc * stride..(doc + 1) * stride];
+            let (first, end) = (groups[group] as usize, groups[group + 1] as usize);
+            if first == end {
+                continue;
+            }
+            let doc_topics =
+                context.offsets[doc] as usize - first_token..context.offsets[doc + 1] as usize - first_token;
+            for &topic in &topics[doc_topics.clone()] {
+                doc_counts[topic as usize] += 1;
+            }
+            for &topic in &topics[doc_topics.clone()] {
+                let topic = topic as usize;
+                coefficient[topic] = (f64::from(doc_counts[topic]) + alpha[topic]) * inverse_total[topic];
+            }
+            for position in first..end {
+                if let Some(&ahead) = context.words.get(position + RECORD_AHEAD)
+                    && position + RECORD_AHEAD < end
+                {
+                    prefetch(context.records, ahead as usize);
+                }
+                let local = position - first_token;
+                let word = context.words[position] as usize;
+                let row = context.records[word].row;
+                let beta = match self.beta {
+                    BetaPrior::Symmetric(value) => *value,
+                    BetaPrior::Asymmetric(values) => values[word],
+                };
+                let old = topics[local];
+                let moved = |topic: usize, change: i64, doc_counts: &mut [u32], totals: &mut [u64]| {
+                    doc_counts[topic] = doc_counts[topic].wrapping_add_signed(change as i32);
+                    totals[topic] = totals[topic].wrapping_add_signed(change);
+                    let inverse = 1.0 / (totals[topic] as f64 + beta_sum);
+                    (inverse, (f64::from(doc_counts[topic]) + alpha[topic]) * inverse)
+                };
+                (inverse_total[old as usize], coefficient[old as usize]) =
+                    moved(old as usize, -1, doc_counts, topic_totals);
+                rows.decrement(row, old);
+
+                let counts = rows.dense_row(row, word_row);
+                for (chunk, chunk_sum) in chunk_sums.iter_mut().enumerate() {
+                    let first = chunk * CHUNK;
+                    let chunk_weights: &mut [f64; CHUNK] = (&mut weights[first..first + CHUNK])
+                        .try_into()
+                        .expect("weights hold whole chunks");
+                    if first + CHUNK <= n_topics {
+                        let counts: &[u32; CHUNK] =
+                            counts[first..first + CHUNK].try_into().expect("a whole chunk");
+                        let coefficient: &[f64; CHUNK] = coefficient[first..first + CHUNK]
+                            .try_into()
+                            .expect("a whole chunk");
+                        *chunk_weights =
+                            std::array::from_fn(|i| (f64::from(counts[i]) + beta) * coefficient[i]);
+                    } else {
+                        *chunk_weights = std::array::from_fn(|i| match counts.get(first + i) {
+                            Some(&count) => (f64::from(count) + beta) * coefficient[first + i],
+                            None => 0.0,
+                        });
+                    }
+                    *chunk_sum = tree_sum(chunk_weights);
+                }
+                rows.clear_dense(row, word_row);
+                let total: f64 = chunk_sums.iter().sum();
+                let mut target = rng.random::<f64>() * total;
+                let mut chunk = 0;
+                while chunk + 1 < n_chunks && target >= chunk_sums[chunk] {
+                    target -= chunk_sums[chunk];
+                    chunk += 1;
+                }
+                let last = (chunk * CHUNK + CHUNK).min(n_topics) - 1;
+                let mut new = chunk * CHUNK;
+                while new < last && target >= weights[new] {
+                    target -= weights[new];
+                    new += 1;
+                }
+                let new = new as Topic;
+
+                rows.increment(row, new);
+                (inverse_total[new as usize], coefficient[new as usize]) =
+                    moved(new as usize, 1, doc_counts, topic_totals);
+                topics[local] = new;
+            }
+            for &topic in &topics[doc_topics.clone()] {
+                doc_counts[topic as usize] -= 1;
+            }
+            for &topic in &topics[doc_topics] {
+                let topic = topic as usize;
+                coefficient[topic] = alpha[topic] * inverse_total[topic];
+            }
+        }
+    }
+}

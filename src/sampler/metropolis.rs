@@ -1,0 +1,302 @@
+//! The fast kernel: Metropolis-Hastings steps with proposals drawn in O(1),
+//! alternating a document proposal and a word proposal (the cycle proposal
+//! of Yuan et al., WWW 2015), each drawn by picking a random token of the
+//! document or of the word (as in Chen et al., VLDB 2016), so that no table
+//! has to be built or kept fresh.
+//!
+//! For token i of word w in document d, with current topic s and every count
+//! taken with token i removed (`n_dk`, `n_kw`, `n_k`), the target is
+//! `p(k) ∝ (n_dk + alpha_k)(n_kw + beta_w)/(n_k + b0)`.
+//!
+//! - Document proposal `q(k) ∝ n_dk + [k = s] + alpha_k`: with probability
+//!   `n_d / (n_d + a0)` the topic of a uniformly chosen token of the document
+//!   (token i itself holds s), otherwise a draw from alpha. Acceptance of t:
+//!   `min(1, (n_tw + beta_w)(n_s + b0) / ((n_sw + beta_w)(n_t + b0)))`.
+//! - Word proposal `q(k) ∝ n_kw + [k = s] + beta_w`: with probability
+//!   `n_w / (n_w + K beta_w)` the topic of a uniformly chosen token of the
+//!   word, otherwise a uniform topic. Acceptance of t:
+//!   `min(1, (n_dt + alpha_t)(n_s + b0) / ((n_ds + alpha_s)(n_t + b0)))`.
+//!
+//! Both proposals count token i at its current topic, which is why the
+//! document (resp. word) factor cancels from the ratio: the proposal is
+//! `q(t | s)` and the reverse move `q(s | t)` differs exactly by that factor.
+//! Each step leaves the conditional of token i invariant, so a sweep is a
+//! valid Gibbs-within-Metropolis sweep of the same posterior as the reference
+//! sampler. Token i's stored topic follows the chain, so both proposals see
+//! its current topic.
+
+use rand::RngExt;
+use rand_distr::Distribution;
+use rand_distr::weighted::WeightedAliasIndex;
+
+use super::counts::{RowLayout, RowsMut};
+use super::prefetch::prefetch;
+use super::sharded::{Block, BlockContext, WordRecord, Workspace, block_stream, pack_entry, unpack_entry};
+use super::{BetaPrior, Priors, Topic};
+
+/// Document-then-word proposal pairs per token and sweep.
+pub const CYCLES_PER_TOKEN: usize = 2;
+
+/// Tokens ahead whose word record is prefetched.
+const RECORD_AHEAD: usize = 8;
+/// Tokens ahead whose word proposals are drawn and prefetched.
+const PLAN_AHEAD: usize = 4;
+/// Size of the ring of planned tokens (at least `PLAN_AHEAD + 1`).
+const PLAN_RING: usize = 8;
+
+/// A word proposal drawn ahead of its use.
+#[derive(Clone, Copy, Debug)]
+enum WordPick {
+    /// The entry (a token of the word) at this slot of the word-major list.
+    Entry(usize),
+    /// A uniform topic.
+    Uniform(Topic),
+}
+
+/// What is drawn ahead for one token.
+#[derive(Clone, Copy, Debug)]
+struct Plan {
+    row: RowLayout,
+    beta: f64,
+    picks: [WordPick; CYCLES_PER_TOKEN],
+}
+
+impl Default for Plan {
+    fn default() -> Plan {
+        Plan {
+            row: RowLayout::default(),
+            beta: 0.0,
+            picks: [WordPick::Uniform(0); CYCLES_PER_TOKEN],
+        }
+    }
+}
+
+/// How the proposal from alpha is drawn.
+enum AlphaDraw {
+    /// Symmetric alpha: a uniform topic.
+    Uniform,
+    /// Asymmetric alpha: Walker's alias method (rand_distr's table).
+    Alias(WeightedAliasIndex<f64>),
+}
+
+/// The per-sweep constants of the Metropolis-Hastings kernel.
+pub struct MetropolisKernel<'a> {
+    alpha: &'a [f64],
+    alpha_sum: f64,
+    alpha_draw: AlphaDraw,
+    beta: &'a BetaPrior,
+    beta_sum: f64,
+    n_topics: usize,
+}
+
+impl<'a> MetropolisKernel<'a> {
+    /// The kernel for one sweep with these priors.
+    pub fn new(priors: &'a Priors, n_topics: usize, n_words: usize) -> MetropolisKernel<'a> {
+        let symmetric = priors.alpha.windows(2).all(|pair| pair[0] == pair[1]);
+        let alpha_draw = if symmetric {
+            AlphaDraw::Uniform
+        } else {
+            AlphaDraw::Alias(
+                WeightedAliasIndex::new(priors.alpha.clone()).expect("alpha values are positive and finite"),
+            )
+        };
+        MetropolisKernel {
+            alpha: &priors.alpha,
+            alpha_sum: priors.alpha_sum(),
+            alpha_draw,
+            beta: &priors.beta,
+            beta_sum: priors.beta_sum(n_words),
+            n_topics,
+        }
+    }
+
+    /// Samples every token of `block` once, document by document.
+    ///
+    /// The loop is pipelined: the word record of the token [`RECORD_AHEAD`]
+    /// places ahead is prefetched, and the word proposals of the token
+    /// [`PLAN_AHEAD`] places ahead are drawn and their entries prefetched
+    /// (which entry is picked does not depend on the state; the topic read
+    /// from it is read when the proposal is used).
+    pub fn sample_block(&self, context: &BlockContext<'_>, block: Block<'_>, workspace: &mut Workspace) {
+        let Block {
+            index,
+            shard,
+            group,
+            topics,
+            entries,
+            first_slot,
+            mut rows,
+        } = block;
+        let Workspace {
+            topic_totals,
+            doc_counts,
+            positions,
+            ..
+        } = workspace;
+        let mut rng = block_stream(context.seed, context.iteration, index);
+        let records = context.records;
+        let words = context.words;
+        let first_token = shard.tokens.start;
+        let stride = context.groups_stride;
+        positions.clear();
+        for doc in shard.docs.clone() {
+            let groups = &context.doc_groups[doc * stride..(doc + 1) * stride];
+            positions.extend(groups[group]..groups[group + 1]);
+        }
+        let n_positions = positions.len();
+        let beta_sum = self.beta_sum;
+        let alpha = self.alpha;
+        let mut plans = [Plan::default(); PLAN_RING];
+        for (ahead, plan) in plans.iter_mut().enumerate().take(PLAN_AHEAD.min(n_positions)) {
+            *plan = self.plan(records, words[positions[ahead] as usize], &mut rng);
+        }
+        let mut docs = shard.docs.clone();
+        let (mut doc_start, mut doc_end) = (first_token, first_token);
+        let mut doc_len = 0.0;
+        let mut doc_scale = 0.0;
+        for step in 0..n_positions {
+            let position = positions[step] as usize;
+            if position >= doc_end {
+                for &topic in &topics[doc_start - first_token..doc_end - first_token] {
+                    doc_counts[topic as usize] -= 1;
+                }
+                while position >= doc_end {
+                    let doc = docs.next().expect("the block's tokens lie in its shard");
+                    doc_start = context.offsets[doc] as usize;
+                    doc_end = context.offsets[doc + 1] as usize;
+                }
+                doc_len = (doc_end - doc_start) as f64;
+                doc_scale = doc_len + self.alpha_sum;
+                for &topic in &topics[doc_start - first_token..doc_end - first_token] {
+                    doc_counts[topic as usize] += 1;
+                }
+            }
+            if let Some(&ahead) = positions.get(step + RECORD_AHEAD) {
+                prefetch(records, words[ahead as usize] as usize);
+            }
+            if let Some(&ahead) = positions.get(step + PLAN_AHEAD) {
+                let ahead = ahead as usize;
+                let plan = self.plan(records, words[ahead], &mut rng);
+                for pick in plan.picks {
+                    if let WordPick::Entry(slot) = pick {
+                        prefetch(entries, slot - first_slot);
+                    }
+                }
+                rows.prefetch(plan.row, topics[ahead - first_token]);
+                plans[(step + PLAN_AHEAD) % PLAN_RING] = plan;
+            }
+            let plan = plans[step % PLAN_RING];
+            let beta = plan.beta;
+            let local = position - first_token;
+            // Token i leaves the document and topic counts here; it stays in
+            // the word-topic table, which is read as `n_kw - [k = start]` and
+            // changed at the end only if the topic moved.
+            let start = topics[local];
+            doc_counts[start as usize] -= 1;
+            topic_totals[start as usize] -= 1;
+            let word_count_without =
+                |rows: &RowsMut<'_>, topic: Topic| rows.get(plan.row, topic) - u32::from(topic == start);
+            let mut current = start;
+            // n_{current,w} without token i, when known.
+            let mut current_word_count = None;
+
+            for pick in plan.picks {
+                // Document proposal.
+                let draw = rng.random::<f64>() * doc_scale;
+                let proposed = if draw < doc_len {
+                    topics[doc_start - first_token + draw as usize]
+                } else {
+                    self.draw_from_alpha(&mut rng)
+                };
+                if proposed != current {
+                    let proposed_count = word_count_without(&rows, proposed);
+                    let current_count =
+                        *current_word_count.get_or_insert_with(|| word_count_without(&rows, current));
+                    let ratio = (f64::from(proposed_count) + beta)
+                        * (topic_totals[current as usize] as f64 + beta_sum)
+                        / ((f64::from(current_count) + beta)
+                            * (topic_totals[proposed as usize] as f64 + beta_sum));
+                    if rng.random::<f64>() < ratio {
+                        current = proposed;
+                        current_word_count = Some(proposed_count);
+                        topics[local] = current;
+                    }
+                }
+
+                // Word proposal.
+                let proposed = match pick {
+                    WordPick::Entry(slot) => match unpack_entry(entries[slot - first_slot]) {
+                        (token, _) if token == position => current,
+                        (_, topic) => topic,
+                    },
+                    WordPick::Uniform(topic) => topic,
+                };
+                if proposed != current {
+                    let ratio = (f64::from(doc_counts[proposed as usize]) + alpha[proposed as usize])
+                        * (topic_totals[current as usize] as f64 + beta_sum)
+                        / ((f64::from(doc_counts[current as usize]) + alpha[current as usize])
+                            * (topic_totals[proposed as usize] as f64 + beta_sum));
+                    if rng.random::<f64>() < ratio {
+                        current = proposed;
+                        current_word_count = None;
+                        topics[local] = current;
+                    }
+                }
+            }
+
+            doc_counts[current as usize] += 1;
+            topic_totals[current as usize] += 1;
+            if current != start {
+                rows.decrement(plan.row, start);
+                rows.increment(plan.row, current);
+                entries[context.slot_of[position] as usize - first_slot] = pack_entry(position, current);
+            }
+        }
+        for &topic in &topics[doc_start - first_token..doc_end - first_token] {
+            doc_counts[topic as usize] -= 1;
+        }
+    }
+
+    /// Draws the word proposals of a token of `word`: for each cycle, a
+    /// uniformly chosen token of the word with probability
+    /// `n_w / (n_w + K beta_w)`, else a uniform topic.
+    #[inline]
+    fn plan(&self, records: &[WordRecord], word: u32, rng: &mut impl rand::Rng) -> Plan {
+        let record = records[word as usize];
+        let beta = self.beta_of(word as usize);
+        let word_len = record.len as f64;
+        let scale = word_len + self.n_topics as f64 * beta;
+        let mut picks = [WordPick::Uniform(0); CYCLES_PER_TOKEN];
+        for pick in &mut picks {
+            let draw = rng.random::<f64>() * scale;
+            *pick = if draw < word_len {
+                WordPick::Entry(record.first + draw as usize)
+            } else {
+                // Given `draw >= n_w`, `(draw - n_w) / beta` is uniform on [0, K).
+                let topic = ((draw - word_len) / beta) as usize;
+                WordPick::Uniform(topic.min(self.n_topics - 1) as Topic)
+            };
+        }
+        Plan {
+            row: record.row,
+            beta,
+            picks,
+        }
+    }
+
+    #[inline]
+    fn beta_of(&self, word_idx: usize) -> f64 {
+        match self.beta {
+            BetaPrior::Symmetric(value) => *value,
+            BetaPrior::Asymmetric(values) => values[word_idx],
+        }
+    }
+
+    #[inline]
+    fn draw_from_alpha(&self, rng: &mut impl rand::Rng) -> Topic {
+        match &self.alpha_draw {
+            AlphaDraw::Uniform => rng.random_range(0..self.n_topics as u32) as Topic,
+            AlphaDraw::Alias(table) => table.sample(rng) as Topic,
+        }
+    }
+}
