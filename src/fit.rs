@@ -179,7 +179,7 @@ pub struct FitSettings {
     pub trace_every: u64,
     /// The sampler asked for.
     pub sampler: SamplerChoice,
-    /// Shards for parallel sweeps; `None` picks one per 262,144 tokens (at most 32).
+    /// Shards for parallel sweeps; `None` picks one per 262,144 tokens (at most 8).
     pub shards: Option<usize>,
 }
 

@@ -26,12 +26,14 @@
 //! assert_eq!(model.n_topics(), 2);
 //! ```
 
+pub mod bench;
 pub mod coherence;
 pub mod compare;
 pub mod corpus;
 pub mod fit;
 pub mod format;
 pub mod heldout;
+pub mod memory;
 pub mod model;
 pub mod priors;
 pub mod read;

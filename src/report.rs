@@ -269,6 +269,8 @@ pub struct FitSummary {
     pub seed: u64,
     pub threads: usize,
     pub sampler: String,
+    /// Shards of the block grid the sampler ran on (1 for the reference).
+    pub shards: u32,
     pub alpha: Vec<f64>,
     pub beta: serde_json::Value,
     pub sampling_seconds: f64,
@@ -287,6 +289,9 @@ pub struct FitSummary {
     pub heldout_perplexity: Option<f64>,
     /// The held-out scoring behind it.
     pub heldout: Option<crate::score::HeldOutScore>,
+    /// Peak resident memory of the process that fitted the model, in bytes
+    /// (null where the system does not tell).
+    pub peak_rss_bytes: Option<u64>,
 }
 
 /// Version of the summary.json layout.
@@ -314,6 +319,7 @@ impl FitSummary {
             seed: model.seed,
             threads,
             sampler: model.schedule.sampler.name().to_string(),
+            shards: model.schedule.shards,
             alpha: model.priors.alpha.clone(),
             beta: match &model.priors.beta {
                 BetaPrior::Symmetric(value) => serde_json::json!(value),
@@ -333,7 +339,14 @@ impl FitSummary {
             convergence: crate::fit::convergence(model),
             heldout_perplexity: None,
             heldout: None,
+            peak_rss_bytes: None,
         }
+    }
+
+    /// Records the peak resident memory of the fitting process.
+    pub fn with_peak_rss(mut self, bytes: Option<u64>) -> FitSummary {
+        self.peak_rss_bytes = bytes;
+        self
     }
 }
 

@@ -169,7 +169,8 @@ pub struct UrnCorpusSettings {
 /// Dirichlet-multinomial marginal of the generative process, costs O(1) per
 /// token, and never holds a K x V matrix, so it scales to the sizes
 /// `themata bench` needs. Word ids are Zipf ranks (0 is the most frequent).
-pub fn urn_corpus(settings: &UrnCorpusSettings) -> Corpus {
+/// Returns the corpus and the topic each token was drawn from.
+pub fn urn_corpus(settings: &UrnCorpusSettings) -> (Corpus, Vec<crate::sampler::Topic>) {
     let UrnCorpusSettings {
         n_tokens,
         n_words,
@@ -181,6 +182,11 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> Corpus {
         seed,
     } = settings.clone();
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
+    assert!(
+        n_topics <= crate::sampler::MAX_TOPICS,
+        "at most {} topics",
+        crate::sampler::MAX_TOPICS
+    );
     let zipf: Vec<f64> = (1..=n_words)
         .map(|rank| (rank as f64).powf(-zipf_exponent))
         .collect();
@@ -191,6 +197,7 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> Corpus {
     let mut tokens = Vec::with_capacity(n_tokens);
     let mut offsets = vec![0u64];
     let mut doc_topics: Vec<usize> = Vec::new();
+    let mut drawn_topics = Vec::with_capacity(n_tokens);
     let mut counter = WordCounter::new(n_words);
     let mean = mean_doc_len.max(2);
     while tokens.len() < n_tokens {
@@ -218,6 +225,7 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> Corpus {
         }
         counter.add_document(&tokens[doc_start..]);
         offsets.push(tokens.len() as u64);
+        drawn_topics.extend(doc_topics.iter().map(|&topic| topic as crate::sampler::Topic));
     }
     let documents = (0..offsets.len() - 1)
         .map(|idx| crate::corpus::DocumentInfo {
@@ -227,13 +235,14 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> Corpus {
         })
         .collect();
     let names = (0..n_words).map(|w| format!("w{w}")).collect();
-    Corpus {
+    let corpus = Corpus {
         tokenizer: crate::tokenize::TokenizerSettings::default(),
         vocabulary: counter.into_vocabulary(names),
         documents,
         offsets,
         tokens,
-    }
+    };
+    (corpus, drawn_topics)
 }
 
 /// The bars example (Griffiths & Steyvers 2004): a 5x5 pixel vocabulary,
@@ -314,4 +323,78 @@ pub fn zipf_topics(n_topics: usize, n_words: usize, beta: f64, seed: u64) -> Vec
         .map(|rank| (beta * n_words as f64 * (1.0 / rank as f64) / harmonic).max(1e-3))
         .collect();
     (0..n_topics).map(|_| dirichlet(&base, &mut rng)).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use statrs::function::gamma::ln_gamma;
+
+    fn small_urn() -> (Corpus, Vec<crate::sampler::Topic>, UrnCorpusSettings) {
+        let settings = UrnCorpusSettings {
+            n_tokens: 200_000,
+            n_words: 1000,
+            n_topics: 50,
+            mean_doc_len: 40,
+            alpha: 0.02,
+            beta: 0.01,
+            zipf_exponent: 1.0,
+            seed: 3,
+        };
+        let (corpus, topics) = urn_corpus(&settings);
+        (corpus, topics, settings)
+    }
+
+    #[test]
+    fn documents_use_as_many_topics_as_the_dirichlet_multinomial_predicts() {
+        // Source: the beta-binomial pmf at zero (Johnson, Kemp & Kotz,
+        // "Univariate Discrete Distributions", 3rd ed., section 6.7.2): a
+        // topic's count in a document of n tokens under symmetric
+        // Dirichlet(alpha) over K topics is beta-binomial(n, alpha, a0 - alpha),
+        // so P(absent) = Gamma(a0) Gamma(n + a0 - alpha) / (Gamma(a0 - alpha) Gamma(n + a0))
+        // and the expected number of topics used is K (1 - P(absent)).
+        let (corpus, topics, settings) = small_urn();
+        assert_eq!(corpus.n_tokens(), settings.n_tokens);
+        assert_eq!(topics.len(), settings.n_tokens);
+        let k = settings.n_topics as f64;
+        let alpha = settings.alpha;
+        let a0 = alpha * k;
+        let differences: Vec<f64> = (0..corpus.n_docs())
+            .map(|doc| {
+                let range = corpus.offsets[doc] as usize..corpus.offsets[doc + 1] as usize;
+                let n = range.len() as f64;
+                let mut used: Vec<_> = topics[range].to_vec();
+                used.sort_unstable();
+                used.dedup();
+                let absent =
+                    (ln_gamma(a0) + ln_gamma(n + a0 - alpha) - ln_gamma(a0 - alpha) - ln_gamma(n + a0)).exp();
+                used.len() as f64 - k * (1.0 - absent)
+            })
+            .collect();
+        let count = differences.len() as f64;
+        let mean = differences.iter().sum::<f64>() / count;
+        let sd = (differences.iter().map(|d| (d - mean).powi(2)).sum::<f64>() / (count - 1.0)).sqrt();
+        let z = mean / (sd / count.sqrt());
+        // Tolerance |z| < 4 over some 5,000 independent documents.
+        assert!(z.abs() < 4.0, "mean difference {mean:.4} (z = {z:.2})");
+    }
+
+    #[test]
+    fn word_frequencies_follow_the_zipf_base() {
+        // Source: in the Pólya urn every token's marginal word distribution
+        // is the base measure (Blackwell & MacQueen 1973), here Zipf with
+        // s = 1: p(rank 1) = 1 / H_V. Each of the 50 topics holds word 0
+        // with a share ~ Beta(b0 p, b0 (1 - p)), b0 = 10, whose standard
+        // deviation 0.10 shrinks to about 0.015 over 50 topics; tolerance 0.06.
+        let (corpus, _, settings) = small_urn();
+        let harmonic: f64 = (1..=settings.n_words).map(|r| 1.0 / r as f64).sum();
+        let share = corpus.tokens.iter().filter(|&&w| w == 0).count() as f64 / corpus.n_tokens() as f64;
+        assert!(
+            (share - 1.0 / harmonic).abs() < 0.06,
+            "{share} vs {}",
+            1.0 / harmonic
+        );
+        let vocabulary_counts: u64 = corpus.vocabulary.word_counts().iter().sum();
+        assert_eq!(vocabulary_counts as usize, corpus.n_tokens());
+    }
 }

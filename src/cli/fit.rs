@@ -99,7 +99,8 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         threads,
         timing.sampling_seconds,
         timing.tokens_per_second(),
-    );
+    )
+    .with_peak_rss(themata::memory::peak_rss_bytes());
     if let Some(held) = &heldout {
         summary = summary.with_heldout(score_holdout(&model, held, threads)?);
     }

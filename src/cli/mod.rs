@@ -2,6 +2,7 @@
 //! an exit code, and the dispatch to one file per subcommand.
 
 mod assign;
+mod bench;
 mod build;
 mod fit;
 mod progress;
@@ -108,6 +109,8 @@ pub enum Command {
     Score(score::ScoreArgs),
     /// Fit several numbers of topics and recommend one
     Sweep(sweep::SweepArgs),
+    /// Measure the fast samplers against the reference on synthetic corpora
+    Bench(bench::BenchArgs),
 }
 
 /// How new documents are read by `assign` and `score` (there `--format`
@@ -233,6 +236,7 @@ pub fn run(cli: Cli) -> Result<(), Failure> {
         Command::Assign(args) => assign::run(args),
         Command::Score(args) => score::run(args),
         Command::Sweep(args) => sweep::run(args),
+        Command::Bench(args) => bench::run(args),
     }
 }
 

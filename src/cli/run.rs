@@ -49,7 +49,8 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         plan.threads,
         timing.sampling_seconds,
         timing.tokens_per_second(),
-    );
+    )
+    .with_peak_rss(themata::memory::peak_rss_bytes());
     if let Some(score) = heldout {
         summary = summary.with_heldout(score);
     }

@@ -49,6 +49,14 @@ pub struct RowLayout {
     mask: u32,
 }
 
+impl RowLayout {
+    /// Whether the row is dense (K counters).
+    #[inline]
+    pub fn is_dense(self) -> bool {
+        self.mask == DENSE
+    }
+}
+
 /// Reads `topic`'s count from a row stored at `layout` in `cells`, whose
 /// first element is cell `offset` of the whole table.
 #[inline]

@@ -15,6 +15,10 @@
 //! Sparse word rows are spread into K dense counters first, so the weights
 //! are always visited in topic order and the draw never depends on how a
 //! sparse row happens to be laid out.
+//!
+//! Within a document the sampler orders tokens by word, so a word used
+//! several times comes back to back; for such a repeat only the two weights
+//! whose counts changed since the previous token are recomputed.
 
 use rand::RngExt;
 
@@ -100,6 +104,12 @@ impl<'a> ExactKernel<'a> {
             chunk_sums,
             word_row,
         } = exact;
+        // Plain slices, so that the hot loops need not reload vector headers.
+        let (inverse_total, coefficient) = (inverse_total.as_mut_slice(), coefficient.as_mut_slice());
+        let (weights, chunk_sums) = (weights.as_mut_slice(), chunk_sums.as_mut_slice());
+        let word_row = word_row.as_mut_slice();
+        // Weights past K stay zero: they pad the last chunk.
+        weights.fill(0.0);
         let beta_sum = self.beta_sum;
         let alpha = self.alpha;
         for topic in 0..n_topics {
@@ -124,6 +134,8 @@ impl<'a> ExactKernel<'a> {
                 let topic = topic as usize;
                 coefficient[topic] = (f64::from(doc_counts[topic]) + alpha[topic]) * inverse_total[topic];
             }
+            // The word and new topic of the token just sampled in this document.
+            let mut repeat_of: Option<(usize, Topic)> = None;
             for position in first..end {
                 if let Some(&ahead) = context.words.get(position + RECORD_AHEAD)
                     && position + RECORD_AHEAD < end
@@ -149,26 +161,34 @@ impl<'a> ExactKernel<'a> {
                 rows.decrement(row, old);
 
                 let counts = rows.dense_row(row, word_row);
-                for (chunk, chunk_sum) in chunk_sums.iter_mut().enumerate() {
-                    let first = chunk * CHUNK;
-                    let chunk_weights: &mut [f64; CHUNK] = (&mut weights[first..first + CHUNK])
-                        .try_into()
-                        .expect("weights hold whole chunks");
-                    if first + CHUNK <= n_topics {
-                        let counts: &[u32; CHUNK] =
-                            counts[first..first + CHUNK].try_into().expect("a whole chunk");
-                        let coefficient: &[f64; CHUNK] = coefficient[first..first + CHUNK]
-                            .try_into()
-                            .expect("a whole chunk");
-                        *chunk_weights =
-                            std::array::from_fn(|i| (f64::from(counts[i]) + beta) * coefficient[i]);
-                    } else {
-                        *chunk_weights = std::array::from_fn(|i| match counts.get(first + i) {
-                            Some(&count) => (f64::from(count) + beta) * coefficient[first + i],
-                            None => 0.0,
-                        });
+                match repeat_of {
+                    // The same dense word as the token before: its weights
+                    // still hold except for the topic that token joined and
+                    // the one this token left, so only those are redone (the
+                    // result is bit for bit what a full pass gives).
+                    Some((previous_word, joined)) if previous_word == word && row.is_dense() => {
+                        for topic in [joined as usize, old as usize] {
+                            weights[topic] = (f64::from(counts[topic] as i32) + beta) * coefficient[topic];
+                            let chunk = topic / CHUNK;
+                            chunk_sums[chunk] = tree_sum(
+                                weights[chunk * CHUNK..chunk * CHUNK + CHUNK]
+                                    .try_into()
+                                    .expect("a whole chunk"),
+                            );
+                        }
                     }
-                    *chunk_sum = tree_sum(chunk_weights);
+                    _ => {
+                        // Counts are below 2^31 (a corpus has fewer tokens), so
+                        // they convert as signed integers, which vectorises.
+                        for ((weight, &count), &coefficient) in
+                            weights.iter_mut().zip(counts).zip(&*coefficient)
+                        {
+                            *weight = (f64::from(count as i32) + beta) * coefficient;
+                        }
+                        for (chunk_sum, chunk) in chunk_sums.iter_mut().zip(weights.chunks_exact(CHUNK)) {
+                            *chunk_sum = tree_sum(chunk.try_into().expect("a whole chunk"));
+                        }
+                    }
                 }
                 rows.clear_dense(row, word_row);
                 let total: f64 = chunk_sums.iter().sum();
@@ -190,6 +210,7 @@ impl<'a> ExactKernel<'a> {
                 (inverse_total[new as usize], coefficient[new as usize]) =
                     moved(new as usize, 1, doc_counts, topic_totals);
                 topics[local] = new;
+                repeat_of = Some((word, new));
             }
             for &topic in &topics[doc_topics.clone()] {
                 doc_counts[topic as usize] -= 1;

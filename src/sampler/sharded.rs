@@ -52,10 +52,13 @@ use crate::corpus::Corpus;
 /// Each document is visited once per epoch, and a visit costs a pass over
 /// the document, so shards are kept large.
 pub const TOKENS_PER_SHARD: usize = 1 << 18;
-/// The most shards chosen automatically.
-pub const MAX_AUTO_SHARDS: usize = 32;
-/// The largest corpus the sampler takes (token positions are 32-bit).
-pub const MAX_TOKENS: usize = u32::MAX as usize;
+/// The most shards chosen automatically: enough blocks per epoch to keep
+/// eight threads busy, while each document is visited (its topic counts
+/// rebuilt) only this many times per sweep.
+pub const MAX_AUTO_SHARDS: usize = 8;
+/// The largest corpus the sampler takes (token positions are 32-bit, and
+/// counts stay below 2^31).
+pub const MAX_TOKENS: usize = i32::MAX as usize;
 
 /// The shard count used when none is given: one per [`TOKENS_PER_SHARD`]
 /// tokens, between 1 and [`MAX_AUTO_SHARDS`].
@@ -244,6 +247,8 @@ pub struct ShardedSampler {
     /// For document d, `doc_groups[d * (P + 1) + q]` is the sampler position
     /// where its tokens of word group q start.
     doc_groups: Vec<u32>,
+    /// Tokens of block (p, q) at `block_tokens[p * P + q]`.
+    block_tokens: Vec<usize>,
     records: Vec<WordRecord>,
     workspaces: Vec<Mutex<Option<Workspace>>>,
 }
@@ -288,6 +293,16 @@ impl ShardedSampler {
             .iter()
             .map(|&token| corpus.tokens[token as usize])
             .collect();
+        let stride = n_groups + 1;
+        let mut block_tokens = vec![0usize; n_groups * n_groups];
+        for shard in &shards {
+            for doc in shard.docs.clone() {
+                for group in 0..n_groups {
+                    block_tokens[shard.index * n_groups + group] +=
+                        (doc_groups[doc * stride + group + 1] - doc_groups[doc * stride + group]) as usize;
+                }
+            }
+        }
 
         // Word-major entries and each token's slot.
         let mut word_first = vec![0usize; n_words + 1];
@@ -316,6 +331,7 @@ impl ShardedSampler {
             entries,
             word_first,
             doc_groups,
+            block_tokens,
             records: Vec::new(),
             workspaces: Vec::new(),
         }
@@ -343,6 +359,7 @@ impl ShardedSampler {
             + self.slot_of.len() * 4
             + self.entries.len() * 8
             + self.doc_groups.len() * 4
+            + self.block_tokens.len() * 8
             + self.records.len() * std::mem::size_of::<WordRecord>()
             + workspaces
     }
@@ -357,7 +374,7 @@ impl ShardedSampler {
         seed: u64,
         iteration: u64,
     ) {
-        self.load(state);
+        self.load(state, kernel == BlockKernel::Metropolis);
         let n_groups = self.shards.len();
         let metropolis = MetropolisKernel::new(priors, state.n_topics, state.n_words);
         let exact = ExactKernel::new(priors, state.n_topics, state.n_words);
@@ -374,6 +391,7 @@ impl ShardedSampler {
             slot_of,
             entries,
             doc_groups,
+            block_tokens,
             records,
             workspaces,
             ..
@@ -406,7 +424,7 @@ impl ShardedSampler {
                 .into_iter()
                 .map(Some)
                 .collect();
-            let blocks: Vec<Block<'_>> = shards
+            let mut blocks: Vec<Block<'_>> = shards
                 .iter()
                 .zip(topic_parts.drain(..))
                 .map(|(shard, topics)| {
@@ -422,6 +440,9 @@ impl ShardedSampler {
                     }
                 })
                 .collect();
+            // Largest blocks first, handed out one at a time, so that threads
+            // finish an epoch close together.
+            blocks.sort_by_key(|block| std::cmp::Reverse(block_tokens[block.index]));
             let run_block = |block: Block<'_>| {
                 let slot_idx = rayon::current_thread_index().unwrap_or(0) % workspaces.len();
                 let mut slot = workspaces[slot_idx].lock().expect("workspace lock");
@@ -449,7 +470,7 @@ impl ShardedSampler {
             if n_threads == 1 || blocks.len() == 1 {
                 blocks.into_iter().for_each(run_block);
             } else {
-                blocks.into_par_iter().for_each(run_block);
+                blocks.into_par_iter().with_max_len(1).for_each(run_block);
             }
             for slot in workspaces {
                 if let Some(workspace) = slot.lock().expect("workspace lock").as_mut() {
@@ -465,8 +486,9 @@ impl ShardedSampler {
         self.store(state);
     }
 
-    /// Copies the state's topics into sampler order and the word-major list.
-    fn load(&mut self, state: &CountState) {
+    /// Copies the state's topics into sampler order, and into the word-major
+    /// list when `with_entries` (only the Metropolis-Hastings kernel reads it).
+    fn load(&mut self, state: &CountState, with_entries: bool) {
         if self.records.len() != state.n_words {
             let word_first = &self.word_first;
             self.records = (0..state.n_words)
@@ -487,6 +509,9 @@ impl ShardedSampler {
                     *topic = assignments[token as usize];
                 }
             });
+        if !with_entries {
+            return;
+        }
         let topics = &self.topics;
         self.entries.par_chunks_mut(1 << 14).for_each(|entries| {
             for entry in entries {

@@ -197,9 +197,19 @@ fn fit_writes_model_and_summary_contract() {
         "tokens_per_second",
         "log_likelihood",
         "log_likelihood_trace",
+        "sampler",
+        "shards",
+        "peak_rss_bytes",
     ] {
         assert!(summary.get(key).is_some(), "summary.json lacks {key}: {summary}");
     }
+    // Source: issue 5 — auto picks the exact sampler for few topics.
+    assert_eq!(summary["sampler"], "exact");
+    #[cfg(target_os = "linux")]
+    assert!(
+        summary["peak_rss_bytes"].as_u64().unwrap() > 1_000_000,
+        "{summary}"
+    );
     assert_eq!(summary["documents"], 12);
     assert_eq!(summary["topics"], 3);
     assert_eq!(summary["iterations"], 60);
@@ -833,4 +843,66 @@ fn sweep_writes_a_table_and_recommends() {
         .args(["sweep", "absent.bin", "--topics", "2", "--out", "s4"])
         .assert()
         .code(BAD_INPUT);
+}
+
+#[test]
+fn bench_runs_quickly_and_prints_its_tables() {
+    // Source: issue 5 — `themata bench` prints rates, ratios, memory per
+    // token and log-likelihood against time for the reference and the fast
+    // samplers. --quick checks the command works; it measures little.
+    let scratch = Scratch::new();
+    let output = themata(scratch.root())
+        .args(["bench", "--quick"])
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let text = String::from_utf8(output).unwrap();
+    for expected in [
+        "fast/ref",
+        "tok/s",
+        "B/tok fast",
+        "log-likelihood against sweep time",
+        "exact",
+        "metropolis",
+    ] {
+        assert!(text.contains(expected), "bench output lacks {expected}:\n{text}");
+    }
+    // Both parallel chains end identical to the one-thread chains.
+    assert!(!text.contains(" NO "), "{text}");
+}
+
+#[test]
+fn fit_accepts_each_sampler_and_rejects_unknown_ones() {
+    let scratch = Scratch::new();
+    build_corpus(&scratch);
+    for sampler in ["exact", "metropolis", "reference", "auto"] {
+        themata(scratch.root())
+            .args(["fit", "corpus.bin", "-k", "3", "--iterations", "20", "--quiet"])
+            .args(["--sampler", sampler, "--shards", "2", "--out", sampler])
+            .assert()
+            .success();
+        let summary = read_json(&scratch.path(sampler).join("summary.json"));
+        let expected = if sampler == "auto" { "exact" } else { sampler };
+        assert_eq!(summary["sampler"], expected);
+    }
+    themata(scratch.root())
+        .args([
+            "fit",
+            "corpus.bin",
+            "-k",
+            "3",
+            "--sampler",
+            "fastest",
+            "--out",
+            "x",
+        ])
+        .assert()
+        .code(2);
+    themata(scratch.root())
+        .args(["fit", "corpus.bin", "-k", "3", "--shards", "0", "--out", "x"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("shards"));
 }

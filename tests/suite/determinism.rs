@@ -1,9 +1,10 @@
-//! Same inputs and seed give the same model, bit for bit.
+//! Same inputs and seed give the same model, bit for bit, whatever the
+//! number of threads.
 
-use themata::fit::{FitSettings, PriorSpec, fit};
+use themata::fit::{FitSettings, PriorSpec, SamplerChoice, fit};
 use themata::synthetic;
 
-fn encoded_model(seed: u64, threads: usize) -> Vec<u8> {
+fn encoded_model(seed: u64, threads: usize, sampler: SamplerChoice) -> Vec<u8> {
     let data = synthetic::bars(200, 50, 1.0, 4);
     let settings = FitSettings {
         burn_in: 5,
@@ -13,6 +14,9 @@ fn encoded_model(seed: u64, threads: usize) -> Vec<u8> {
         samples: 3,
         lag: 4,
         trace_every: 5,
+        sampler,
+        // Several shards, so that blocks really do run side by side.
+        shards: Some(4),
         ..FitSettings::fixed(10, 20, 0.5, 0.05, seed)
     };
     let pool = rayon::ThreadPoolBuilder::new()
@@ -26,13 +30,26 @@ fn encoded_model(seed: u64, threads: usize) -> Vec<u8> {
 #[test]
 fn same_seed_same_bytes_for_any_thread_count() {
     // Source: common practice — reproducible runs from a fixed seed.
-    let one = encoded_model(7, 1);
-    assert_eq!(one, encoded_model(7, 1));
-    assert_eq!(one, encoded_model(7, 2));
-    assert_eq!(one, encoded_model(7, 4));
+    for sampler in [
+        SamplerChoice::Exact,
+        SamplerChoice::Metropolis,
+        SamplerChoice::Reference,
+    ] {
+        let one = encoded_model(7, 1, sampler);
+        assert_eq!(one, encoded_model(7, 1, sampler), "{sampler:?}");
+        assert_eq!(one, encoded_model(7, 2, sampler), "{sampler:?}");
+        assert_eq!(one, encoded_model(7, 4, sampler), "{sampler:?}");
+    }
 }
 
 #[test]
-fn different_seed_different_model() {
-    assert_ne!(encoded_model(7, 1), encoded_model(8, 1));
+fn different_seed_or_sampler_different_model() {
+    assert_ne!(
+        encoded_model(7, 1, SamplerChoice::Exact),
+        encoded_model(8, 1, SamplerChoice::Exact)
+    );
+    assert_ne!(
+        encoded_model(7, 1, SamplerChoice::Exact),
+        encoded_model(7, 1, SamplerChoice::Metropolis)
+    );
 }

@@ -7,5 +7,6 @@ mod determinism;
 mod formats;
 mod geweke;
 mod learning;
+mod samplers;
 mod scoring;
 mod worked_examples;

@@ -1,0 +1,371 @@
+//! `themata bench`: the fast samplers against the reference on synthetic
+//! corpora, printed as tables of medians and ratios with the targets they
+//! are held to.
+
+use std::io::{IsTerminal, Write};
+
+use themata::bench::{self, Case, Convergence, LargeRun, ThroughputRow};
+
+use super::Failure;
+
+/// Arguments of `themata bench`.
+#[derive(clap::Args, Debug)]
+#[command(
+    after_help = "Corpora are drawn from the LDA generative process (Zipf-like word frequencies, documents of about 100 tokens, alpha = 10/K, beta = 0.01) with fixed seeds. Each sampler runs on the same corpus from the same start; sweeps alternate between samplers, and every figure is a median over sweeps (ratios are medians of back-to-back pairs), because shared machines are noisy. The full run takes about 15 minutes on two cores."
+)]
+pub struct BenchArgs {
+    /// Small corpora that finish in seconds: checks that everything runs, measures little
+    #[arg(long)]
+    pub quick: bool,
+    /// Threads of the parallel runs
+    #[arg(long, value_name = "T", default_value_t = 2)]
+    pub threads: usize,
+    /// Skip the log-likelihood-against-time comparison (the longest part)
+    #[arg(long)]
+    pub no_convergence: bool,
+    /// Run only the fast sampler on one large corpus, on all --threads, and report time and peak memory
+    #[arg(long, conflicts_with = "quick")]
+    pub large: bool,
+    /// Tokens of the --large corpus
+    #[arg(long, value_name = "N", default_value_t = 100_000_000, requires = "large")]
+    pub large_tokens: usize,
+    /// Sweeps of the --large run
+    #[arg(long, value_name = "N", default_value_t = 100, requires = "large")]
+    pub large_sweeps: usize,
+}
+
+/// Runs `themata bench`.
+pub fn run(args: BenchArgs) -> Result<(), Failure> {
+    if args.threads == 0 {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--threads must be at least 1"
+        )));
+    }
+    let show_progress = std::io::stderr().is_terminal();
+    let mut progress = |message: &str| {
+        if show_progress {
+            eprint!("\r\x1b[2K{message}");
+            let _ = std::io::stderr().flush();
+        }
+    };
+    if args.large {
+        if args.large_tokens < 1000 || args.large_sweeps == 0 {
+            return Err(Failure::bad_input(anyhow::anyhow!(
+                "--large-tokens must be at least 1000 and --large-sweeps at least 1"
+            )));
+        }
+        let case = Case {
+            tokens: args.large_tokens,
+            words: 50_000,
+            topics: 1000,
+            sweeps: args.large_sweeps,
+        };
+        let run = bench::large_run(&case, args.threads, &mut progress);
+        clear_progress(show_progress);
+        print_large(&run);
+        return Ok(());
+    }
+    let (cases, convergence_case) = if args.quick {
+        (
+            vec![
+                Case {
+                    tokens: 20_000,
+                    words: 2_000,
+                    topics: 20,
+                    sweeps: 3,
+                },
+                Case {
+                    tokens: 20_000,
+                    words: 2_000,
+                    topics: 400,
+                    sweeps: 3,
+                },
+            ],
+            Case {
+                tokens: 20_000,
+                words: 2_000,
+                topics: 400,
+                sweeps: 10,
+            },
+        )
+    } else {
+        (
+            vec![
+                Case {
+                    tokens: 1_000_000,
+                    words: 20_000,
+                    topics: 100,
+                    sweeps: 7,
+                },
+                Case {
+                    tokens: 1_000_000,
+                    words: 20_000,
+                    topics: 1000,
+                    sweeps: 5,
+                },
+                Case {
+                    tokens: 1_000_000,
+                    words: 100_000,
+                    topics: 10_000,
+                    sweeps: 3,
+                },
+                Case {
+                    tokens: 10_000_000,
+                    words: 50_000,
+                    topics: 1000,
+                    sweeps: 3,
+                },
+            ],
+            Case {
+                tokens: 1_000_000,
+                words: 20_000,
+                topics: 1000,
+                sweeps: 200,
+            },
+        )
+    };
+    println!("themata bench: fast samplers against the reference O(K) sweep, medians over sweeps");
+    println!();
+    let mut rows = Vec::new();
+    for case in &cases {
+        let row = bench::throughput(case, args.threads, &mut progress);
+        clear_progress(show_progress);
+        print_row_header_once(rows.is_empty(), args.threads);
+        print_row(&row);
+        rows.push(row);
+    }
+    println!();
+    print_memory(&rows);
+    let convergence = if args.no_convergence {
+        None
+    } else {
+        let every = if args.quick { 2 } else { 10 };
+        let result = bench::convergence(&convergence_case, every, &mut progress);
+        clear_progress(show_progress);
+        print_convergence(&result);
+        Some(result)
+    };
+    if args.quick {
+        println!("(--quick: corpora too small for the targets; run without --quick to check them)");
+    } else {
+        print_targets(&rows, convergence.as_ref(), args.threads);
+    }
+    Ok(())
+}
+
+fn clear_progress(shown: bool) {
+    if shown {
+        eprint!("\r\x1b[2K");
+    }
+}
+
+fn print_row_header_once(first: bool, threads: usize) {
+    if first {
+        println!(
+            "{:>10} {:>7} {:>6}  {:<10} {:>6}  {:>10} {:>10} {:>8}  {:>10} {:>7}  {:>5}  {:>8} {:>8}",
+            "tokens",
+            "words",
+            "K",
+            "fast",
+            "shards",
+            "ref tok/s",
+            "fast tok/s",
+            "fast/ref",
+            format!("{threads}T tok/s"),
+            format!("{threads}T/1T"),
+            "same",
+            "B/tok ref",
+            "B/tok fast"
+        );
+    }
+}
+
+fn print_row(row: &ThroughputRow) {
+    println!(
+        "{:>10} {:>7} {:>6}  {:<10} {:>6}  {:>10} {:>10} {:>7.1}x  {:>10} {:>6.2}x  {:>5}  {:>8.1} {:>8.1}",
+        row.case.tokens,
+        row.case.words,
+        row.case.topics,
+        row.fast_sampler.name(),
+        row.shards,
+        rate(row.reference_per_second),
+        rate(row.fast_per_second),
+        row.speedup,
+        rate(row.parallel_per_second),
+        row.thread_speedup,
+        if row.parallel_identical { "yes" } else { "NO" },
+        row.reference_bytes_per_token,
+        row.fast_bytes_per_token,
+    );
+}
+
+fn rate(per_second: f64) -> String {
+    if per_second >= 1e6 {
+        format!("{:.2}M", per_second / 1e6)
+    } else {
+        format!("{:.0}k", per_second / 1e3)
+    }
+}
+
+fn megabytes(bytes: Option<u64>) -> String {
+    bytes.map_or_else(|| "n/a".to_string(), |b| format!("{:.0} MB", b as f64 / 1e6))
+}
+
+fn print_memory(rows: &[ThroughputRow]) {
+    println!("peak resident memory with the corpus and one fast chain (whole process):");
+    for row in rows {
+        println!(
+            "  {} tokens, V = {}, K = {}: {}",
+            row.case.tokens,
+            row.case.words,
+            row.case.topics,
+            megabytes(row.fast_peak_rss)
+        );
+    }
+    println!();
+}
+
+fn print_convergence(result: &Convergence) {
+    println!(
+        "log-likelihood against sweep time, {} tokens, V = {}, K = {} (one thread each; fast = {}):",
+        result.case.tokens,
+        result.case.words,
+        result.case.topics,
+        result.fast_sampler.name()
+    );
+    println!(
+        "{:>8} {:>10} {:>14}    {:>8} {:>10} {:>14}",
+        "ref swp", "ref s", "ref loglik", "fast swp", "fast s", "fast loglik"
+    );
+    let rows = result.reference.len().max(result.fast.len());
+    for idx in 0..rows {
+        let cell = |point: Option<&bench::TracePoint>| match point {
+            Some(p) => format!("{:>8} {:>10.2} {:>14.6e}", p.sweep, p.seconds, p.log_likelihood),
+            None => format!("{:>8} {:>10} {:>14}", "", "", ""),
+        };
+        println!(
+            "{}    {}",
+            cell(result.reference.get(idx)),
+            cell(result.fast.get(idx))
+        );
+    }
+    let reference_end = result.reference.last().copied();
+    match (result.reached, reference_end) {
+        (Some(point), Some(end)) => println!(
+            "fast reached the reference's final log-likelihood ({:.6e} after {} sweeps, {:.1} s) after {} sweeps, {:.1} s: {:.3} of the reference's time",
+            end.log_likelihood,
+            end.sweep,
+            end.seconds,
+            point.sweep,
+            point.seconds,
+            point.seconds / end.seconds
+        ),
+        (None, Some(end)) => println!(
+            "fast did not reach the reference's final log-likelihood ({:.6e}) within the reference's {:.1} s",
+            end.log_likelihood, end.seconds
+        ),
+        _ => {}
+    }
+    println!();
+}
+
+fn print_large(run: &LargeRun) {
+    println!(
+        "{} tokens, V = {}, K = {}: {} sampler, {} shards, {} threads",
+        run.case.tokens,
+        run.case.words,
+        run.case.topics,
+        run.fast_sampler.name(),
+        run.shards,
+        run.threads
+    );
+    println!("  corpus generated in {:.1} s", run.generate_seconds);
+    println!(
+        "  {} sweeps in {:.1} s ({:.2}M token updates/s)",
+        run.case.sweeps,
+        run.sweep_seconds,
+        (run.case.sweeps * run.case.tokens) as f64 / run.sweep_seconds / 1e6
+    );
+    println!(
+        "  log-likelihood {:.6e} at the start, {:.6e} at the end",
+        run.log_likelihood_first, run.log_likelihood_last
+    );
+    println!("  peak resident memory: {}", megabytes(run.peak_rss));
+}
+
+/// The figures the samplers are held to, each beside its target.
+fn print_targets(rows: &[ThroughputRow], convergence: Option<&Convergence>, threads: usize) {
+    println!("targets:");
+    let line = |what: String, value: String, met: bool| {
+        println!(
+            "  {:<58} {:>12}  {}",
+            what,
+            value,
+            if met { "met" } else { "NOT met" }
+        );
+    };
+    for row in rows {
+        let target = match row.case.topics {
+            k if k >= 10_000 => 50.0,
+            k if k >= 1000 => 8.0,
+            _ => 2.0,
+        };
+        line(
+            format!(
+                "fast/ref at K = {}, {} tokens (at least {target}x)",
+                row.case.topics, row.case.tokens
+            ),
+            format!("{:.1}x", row.speedup),
+            row.speedup >= target,
+        );
+    }
+    for row in rows {
+        line(
+            format!(
+                "{threads} threads / 1 thread, K = {}, {} tokens (at least 1.7x)",
+                row.case.topics, row.case.tokens
+            ),
+            format!("{:.2}x", row.thread_speedup),
+            row.thread_speedup >= 1.7,
+        );
+    }
+    if let Some(result) = convergence {
+        match result.time_ratio() {
+            Some(ratio) => line(
+                format!(
+                    "time to the reference's log-likelihood at K = {} (at most 1/5)",
+                    result.case.topics
+                ),
+                format!("{ratio:.3}"),
+                ratio <= 0.2,
+            ),
+            None => line(
+                "time to the reference's log-likelihood (at most 1/5)".to_string(),
+                "not reached".to_string(),
+                false,
+            ),
+        }
+    }
+    for row in rows.iter().filter(|row| row.case.tokens >= 10_000_000) {
+        if let Some(peak) = row.fast_peak_rss {
+            line(
+                format!(
+                    "peak memory, {} tokens, K = {}, V = {} (at most 1 GB)",
+                    row.case.tokens, row.case.topics, row.case.words
+                ),
+                format!("{:.0} MB", peak as f64 / 1e6),
+                peak <= 1_000_000_000,
+            );
+        }
+    }
+    for row in rows.iter().filter(|row| row.case.topics == 1000) {
+        line(
+            format!(
+                "stretch: token updates/s per core, K = 1000, {} tokens (5M)",
+                row.case.tokens
+            ),
+            rate(row.fast_per_second),
+            row.fast_per_second >= 5e6,
+        );
+    }
+}
