@@ -192,7 +192,7 @@ pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -
     let corpus = corpus_of(case);
     let priors = priors_of(case);
     let (fast_sampler, kernel) = fast_kernel(case.topics);
-    let shards = sampler::default_shards(corpus.n_tokens());
+    let shards = sampler::default_shards(corpus.n_tokens(), kernel);
     let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
     let start = CountState::random(&corpus, case.topics, &mut init_rng);
     let one = pool(1);
@@ -320,7 +320,7 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
     let budget = seconds;
 
     let one = pool(1);
-    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens()));
+    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens(), kernel));
     let mut state = start;
     let mut seconds = 0.0;
     let mut fast = vec![reference[0]];
@@ -370,7 +370,7 @@ pub fn large_run(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) ->
     let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
     let mut state = CountState::random(&corpus, case.topics, &mut init_rng);
     let many = pool(threads);
-    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens()));
+    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens(), kernel));
     let log_likelihood_first = sampler::log_likelihood(&state, &corpus, &priors).total();
     let mut sweep_seconds = 0.0;
     for sweep in 1..=case.sweeps {

@@ -179,7 +179,8 @@ pub struct FitSettings {
     pub trace_every: u64,
     /// The sampler asked for.
     pub sampler: SamplerChoice,
-    /// Shards for parallel sweeps; `None` picks one per 262,144 tokens (at most 8).
+    /// Shards for parallel sweeps; `None` picks one per 524,288 tokens (exact)
+    /// or 262,144 tokens (Metropolis-Hastings), at most 8.
     pub shards: Option<usize>,
 }
 
@@ -404,11 +405,11 @@ pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Sched
         BetaPrior::Asymmetric(beta)
     };
     let sampler = settings.sampler.resolve(settings.n_topics);
-    let shards = match sampler {
-        SamplerKind::Reference => 1,
-        SamplerKind::Exact | SamplerKind::Metropolis => settings
+    let shards = match sampler.block_kernel() {
+        None => 1,
+        Some(kernel) => settings
             .shards
-            .unwrap_or_else(|| sampler::default_shards(corpus.n_tokens()))
+            .unwrap_or_else(|| sampler::default_shards(corpus.n_tokens(), kernel))
             .min(corpus.n_docs().max(1)),
     };
     let schedule = Schedule {

@@ -301,7 +301,7 @@ pub struct FitOptions {
     /// Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), both parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (exact up to 300 topics, metropolis above) [default: auto]
     #[arg(long, value_enum, value_name = "NAME")]
     pub sampler: Option<SamplerChoice>,
-    /// Shards for parallel sweeps: documents and words are each cut into N parts, giving N x N blocks; fixed per model, so the thread count never changes the result [default: one per 262,144 tokens, at most 8]
+    /// Shards for parallel sweeps: documents and words are each cut into N parts, giving N x N blocks; fixed per model, so the thread count never changes the result [default: one per 524,288 tokens for exact, 262,144 for metropolis, at most 8]
     #[arg(long, value_name = "N")]
     pub shards: Option<usize>,
 }

@@ -11,7 +11,7 @@ use super::Failure;
 /// Arguments of `themata bench`.
 #[derive(clap::Args, Debug)]
 #[command(
-    after_help = "Corpora are drawn from the LDA generative process (Zipf-like word frequencies, documents of about 100 tokens, alpha = 10/K, beta = 0.01) with fixed seeds. Each sampler runs on the same corpus from the same start; sweeps alternate between samplers, and every figure is a median over sweeps (ratios are medians of back-to-back pairs), because shared machines are noisy. The full run takes about 15 minutes on two cores."
+    after_help = "Corpora are drawn from the LDA generative process (Zipf-like word frequencies, documents of about 100 tokens, alpha = 10/K, beta = 0.01) with fixed seeds. Each sampler runs on the same corpus from the same start; sweeps alternate between samplers, and every figure is a median over sweeps (ratios are medians of back-to-back pairs), because shared machines are noisy. The full run takes about 20 minutes on two cores."
 )]
 pub struct BenchArgs {
     /// Small corpora that finish in seconds: checks that everything runs, measures little

@@ -59,6 +59,8 @@ pub struct ExactScratch {
     chunk_sums: Vec<f64>,
     /// Dense copy of a sparse word row (all zero between tokens).
     word_row: Vec<u32>,
+    /// The topics the current document has used during this visit.
+    distinct: Vec<Topic>,
 }
 
 impl<'a> ExactKernel<'a> {
@@ -103,6 +105,7 @@ impl<'a> ExactKernel<'a> {
             weights,
             chunk_sums,
             word_row,
+            distinct,
         } = exact;
         // Plain slices, so that the hot loops need not reload vector headers.
         let (inverse_total, coefficient) = (inverse_total.as_mut_slice(), coefficient.as_mut_slice());
@@ -125,12 +128,24 @@ impl<'a> ExactKernel<'a> {
             if first == end {
                 continue;
             }
-            let doc_topics =
+            let doc_range =
                 context.offsets[doc] as usize - first_token..context.offsets[doc + 1] as usize - first_token;
-            for &topic in &topics[doc_topics.clone()] {
-                doc_counts[topic as usize] += 1;
+            // Count the document's topics, noting each distinct one once, so
+            // that refreshing and later resetting their coefficients costs
+            // one step per topic, not per token.
+            // (Written without a branch on the count: early on, whether a
+            // topic is new to the document is a coin toss.)
+            distinct.clear();
+            distinct.resize(doc_range.len() + 1, 0);
+            let mut n_distinct = 0;
+            for &topic in &topics[doc_range] {
+                let count = &mut doc_counts[topic as usize];
+                distinct[n_distinct] = topic;
+                n_distinct += usize::from(*count == 0);
+                *count += 1;
             }
-            for &topic in &topics[doc_topics.clone()] {
+            distinct.truncate(n_distinct);
+            for &topic in distinct.iter() {
                 let topic = topic as usize;
                 coefficient[topic] = (f64::from(doc_counts[topic]) + alpha[topic]) * inverse_total[topic];
             }
@@ -207,16 +222,17 @@ impl<'a> ExactKernel<'a> {
                 let new = new as Topic;
 
                 rows.increment(row, new);
+                if doc_counts[new as usize] == 0 {
+                    distinct.push(new);
+                }
                 (inverse_total[new as usize], coefficient[new as usize]) =
                     moved(new as usize, 1, doc_counts, topic_totals);
                 topics[local] = new;
                 repeat_of = Some((word, new));
             }
-            for &topic in &topics[doc_topics.clone()] {
-                doc_counts[topic as usize] -= 1;
-            }
-            for &topic in &topics[doc_topics] {
+            for &topic in distinct.iter() {
                 let topic = topic as usize;
+                doc_counts[topic] = 0;
                 coefficient[topic] = alpha[topic] * inverse_total[topic];
             }
         }

@@ -37,6 +37,7 @@ use super::counts::{RowLayout, RowsMut};
 use super::exact::{ExactKernel, ExactScratch};
 use super::metropolis::MetropolisKernel;
 use super::{CountState, Priors, Topic};
+use crate::corpus::Corpus;
 
 /// The kernel a [`ShardedSampler`] runs on each block.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -46,12 +47,7 @@ pub enum BlockKernel {
     /// Metropolis-Hastings with O(1) document and word proposals.
     Metropolis,
 }
-use crate::corpus::Corpus;
 
-/// Tokens per shard aimed at when the shard count is chosen automatically.
-/// Each document is visited once per epoch, and a visit costs a pass over
-/// the document, so shards are kept large.
-pub const TOKENS_PER_SHARD: usize = 1 << 18;
 /// The most shards chosen automatically: enough blocks per epoch to keep
 /// eight threads busy, while each document is visited (its topic counts
 /// rebuilt) only this many times per sweep.
@@ -60,10 +56,25 @@ pub const MAX_AUTO_SHARDS: usize = 8;
 /// counts stay below 2^31).
 pub const MAX_TOKENS: usize = i32::MAX as usize;
 
-/// The shard count used when none is given: one per [`TOKENS_PER_SHARD`]
-/// tokens, between 1 and [`MAX_AUTO_SHARDS`].
-pub fn default_shards(n_tokens: usize) -> usize {
-    n_tokens.div_ceil(TOKENS_PER_SHARD).clamp(1, MAX_AUTO_SHARDS)
+impl BlockKernel {
+    /// Tokens per shard aimed at when the shard count is chosen
+    /// automatically. Each document is visited once per epoch, and a visit
+    /// costs a pass over the document; that weighs more against the exact
+    /// kernel's cheap tokens at small K, so its shards are larger.
+    pub fn tokens_per_shard(self) -> usize {
+        match self {
+            BlockKernel::Exact => 1 << 19,
+            BlockKernel::Metropolis => 1 << 18,
+        }
+    }
+}
+
+/// The shard count used when none is given: one per
+/// [`BlockKernel::tokens_per_shard`] tokens, between 1 and [`MAX_AUTO_SHARDS`].
+pub fn default_shards(n_tokens: usize, kernel: BlockKernel) -> usize {
+    n_tokens
+        .div_ceil(kernel.tokens_per_shard())
+        .clamp(1, MAX_AUTO_SHARDS)
 }
 
 /// One shard: a contiguous range of documents and of their tokens.
@@ -605,12 +616,15 @@ mod tests {
     }
 
     #[test]
-    fn default_shard_count_depends_on_tokens_only() {
+    fn default_shard_count_depends_on_tokens_and_kernel_only() {
         // Source: common practice — the plan must not depend on the machine.
-        assert_eq!(default_shards(0), 1);
-        assert_eq!(default_shards(TOKENS_PER_SHARD), 1);
-        assert_eq!(default_shards(TOKENS_PER_SHARD + 1), 2);
-        assert_eq!(default_shards(usize::MAX / 2), MAX_AUTO_SHARDS);
+        for kernel in [BlockKernel::Exact, BlockKernel::Metropolis] {
+            let per = kernel.tokens_per_shard();
+            assert_eq!(default_shards(0, kernel), 1);
+            assert_eq!(default_shards(per, kernel), 1);
+            assert_eq!(default_shards(per + 1, kernel), 2);
+            assert_eq!(default_shards(usize::MAX / 2, kernel), MAX_AUTO_SHARDS);
+        }
     }
 
     #[test]
