@@ -161,10 +161,44 @@ struct FastChain {
     kernel: BlockKernel,
 }
 
-fn fast_kernel(topics: usize) -> (SamplerKind, BlockKernel) {
-    match SamplerChoice::Auto.resolve(topics) {
-        SamplerKind::Metropolis => (SamplerKind::Metropolis, BlockKernel::Metropolis),
-        _ => (SamplerKind::Exact, BlockKernel::Exact),
+/// What every measurement starts from: the case's corpus and priors, the
+/// fast sampler `auto` picks for its K, and one random starting state.
+struct Setup {
+    corpus: Corpus,
+    priors: Priors,
+    fast_sampler: SamplerKind,
+    kernel: BlockKernel,
+    start: CountState,
+}
+
+impl Setup {
+    fn new(case: &Case, progress: &mut dyn FnMut(&str)) -> Setup {
+        progress(&format!(
+            "generating {} tokens, V = {}, K = {}",
+            case.tokens, case.words, case.topics
+        ));
+        let corpus = corpus_of(case);
+        let (fast_sampler, kernel) = match SamplerChoice::Auto.resolve(case.topics) {
+            SamplerKind::Metropolis => (SamplerKind::Metropolis, BlockKernel::Metropolis),
+            _ => (SamplerKind::Exact, BlockKernel::Exact),
+        };
+        let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
+        let start = CountState::random(&corpus, case.topics, &mut init_rng);
+        Setup {
+            priors: priors_of(case),
+            corpus,
+            fast_sampler,
+            kernel,
+            start,
+        }
+    }
+
+    /// A driver with the default shard count for this corpus and kernel.
+    fn engine(&self) -> ShardedSampler {
+        ShardedSampler::new(
+            &self.corpus,
+            sampler::default_shards(self.corpus.n_tokens(), self.kernel),
+        )
     }
 }
 
@@ -185,22 +219,19 @@ fn timed(work: impl FnOnce()) -> f64 {
 /// Measures one case: reference, fast on one thread and fast on `threads`
 /// threads, one sweep each in turn.
 pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -> ThroughputRow {
-    progress(&format!(
-        "generating {} tokens, V = {}, K = {}",
-        case.tokens, case.words, case.topics
-    ));
-    let corpus = corpus_of(case);
-    let priors = priors_of(case);
-    let (fast_sampler, kernel) = fast_kernel(case.topics);
-    let shards = sampler::default_shards(corpus.n_tokens(), kernel);
-    let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
-    let start = CountState::random(&corpus, case.topics, &mut init_rng);
+    let Setup {
+        corpus,
+        priors,
+        fast_sampler,
+        kernel,
+        start,
+    } = Setup::new(case, progress);
     let one = pool(1);
     let many = pool(threads);
 
     // Memory first, while only the corpus and one fast chain exist.
     let peak_reset = memory::reset_peak();
-    let mut engine = ShardedSampler::new(&corpus, shards);
+    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens(), kernel));
     let mut fast = FastChain {
         state: start.clone(),
         kernel,
@@ -279,17 +310,28 @@ pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -
 /// reaches the reference's final log-likelihood or has swept as long as the
 /// reference did. Points every `every` sweeps.
 pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) -> Convergence {
-    progress(&format!(
-        "generating {} tokens, V = {}, K = {}",
-        case.tokens, case.words, case.topics
-    ));
-    let corpus = corpus_of(case);
-    let priors = priors_of(case);
-    let (fast_sampler, kernel) = fast_kernel(case.topics);
+    let setup = Setup::new(case, progress);
+    let Setup {
+        corpus,
+        priors,
+        fast_sampler,
+        kernel,
+        start,
+    } = &setup;
     let every = every.max(1);
-    let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
-    let start = CountState::random(&corpus, case.topics, &mut init_rng);
-    let log_likelihood = |state: &CountState| sampler::log_likelihood(state, &corpus, &priors).total();
+    let log_likelihood = |state: &CountState| sampler::log_likelihood(state, corpus, priors).total();
+    let mut point = |label: &str, sweep: usize, seconds: f64, state: &CountState| {
+        let point = TracePoint {
+            sweep,
+            seconds,
+            log_likelihood: log_likelihood(state),
+        };
+        progress(&format!(
+            "{label} sweep {sweep}: {:.4e} after {seconds:.1} s",
+            point.log_likelihood
+        ));
+        point
+    };
 
     let mut state = start.clone();
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(2);
@@ -300,18 +342,9 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
         log_likelihood: log_likelihood(&state),
     }];
     for sweep in 1..=case.sweeps {
-        seconds += timed(|| sampler::sweep_reference(&mut state, &corpus, &priors, &mut rng));
+        seconds += timed(|| sampler::sweep_reference(&mut state, corpus, priors, &mut rng));
         if sweep % every == 0 || sweep == case.sweeps {
-            let point = TracePoint {
-                sweep,
-                seconds,
-                log_likelihood: log_likelihood(&state),
-            };
-            progress(&format!(
-                "reference sweep {sweep}: {:.4e} after {seconds:.1} s",
-                point.log_likelihood
-            ));
-            reference.push(point);
+            reference.push(point("reference", sweep, seconds, &state));
         }
     }
     let target = reference
@@ -320,8 +353,8 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
     let budget = seconds;
 
     let one = pool(1);
-    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens(), kernel));
-    let mut state = start;
+    let mut engine = setup.engine();
+    let mut state = start.clone();
     let mut seconds = 0.0;
     let mut fast = vec![reference[0]];
     let mut reached = None;
@@ -329,18 +362,10 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
     while reached.is_none() && seconds < budget && sweep < 20 * case.sweeps.max(1) {
         sweep += 1;
         seconds +=
-            timed(|| one.install(|| engine.sweep(kernel, &mut state, &corpus, &priors, 7, sweep as u64)));
+            timed(|| one.install(|| engine.sweep(*kernel, &mut state, corpus, priors, 7, sweep as u64)));
         let check = sweep % every.div_ceil(2).max(1) == 0;
         if check {
-            let point = TracePoint {
-                sweep,
-                seconds,
-                log_likelihood: log_likelihood(&state),
-            };
-            progress(&format!(
-                "fast sweep {sweep}: {:.4e} after {seconds:.1} s",
-                point.log_likelihood
-            ));
+            let point = point("fast", sweep, seconds, &state);
             if point.log_likelihood >= target {
                 reached = Some(point);
             }
@@ -349,7 +374,7 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
     }
     Convergence {
         case: case.clone(),
-        fast_sampler,
+        fast_sampler: *fast_sampler,
         reference,
         fast,
         reached,
@@ -358,19 +383,19 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
 
 /// A long run of the fast sampler alone on `threads` threads.
 pub fn large_run(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -> LargeRun {
-    progress(&format!(
-        "generating {} tokens, V = {}, K = {}",
-        case.tokens, case.words, case.topics
-    ));
     let started = Instant::now();
-    let corpus = corpus_of(case);
+    let setup = Setup::new(case, progress);
     let generate_seconds = started.elapsed().as_secs_f64();
-    let priors = priors_of(case);
-    let (fast_sampler, kernel) = fast_kernel(case.topics);
-    let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
-    let mut state = CountState::random(&corpus, case.topics, &mut init_rng);
     let many = pool(threads);
-    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens(), kernel));
+    let mut engine = setup.engine();
+    let Setup {
+        corpus,
+        priors,
+        fast_sampler,
+        kernel,
+        start,
+    } = setup;
+    let mut state = start;
     let log_likelihood_first = sampler::log_likelihood(&state, &corpus, &priors).total();
     let mut sweep_seconds = 0.0;
     for sweep in 1..=case.sweeps {

@@ -2,7 +2,7 @@
 //! corpora, printed as tables of medians and ratios with the targets they
 //! are held to.
 
-use std::io::{IsTerminal, Write};
+use std::io::{self, IsTerminal, Write};
 
 use themata::bench::{self, Case, Convergence, LargeRun, ThroughputRow};
 
@@ -62,8 +62,7 @@ pub fn run(args: BenchArgs) -> Result<(), Failure> {
         };
         let run = bench::large_run(&case, args.threads, &mut progress);
         clear_progress(show_progress);
-        print_large(&run);
-        return Ok(());
+        return print_large(&mut std::io::stdout().lock(), &run).or_else(super::ignore_broken_pipe);
     }
     let (cases, convergence_case) = if args.quick {
         (
@@ -107,13 +106,13 @@ pub fn run(args: BenchArgs) -> Result<(), Failure> {
                     tokens: 1_000_000,
                     words: 100_000,
                     topics: 10_000,
-                    sweeps: 3,
+                    sweeps: 5,
                 },
                 Case {
                     tokens: 10_000_000,
                     words: 50_000,
                     topics: 1000,
-                    sweeps: 3,
+                    sweeps: 5,
                 },
             ],
             Case {
@@ -124,33 +123,62 @@ pub fn run(args: BenchArgs) -> Result<(), Failure> {
             },
         )
     };
-    println!("themata bench: fast samplers against the reference O(K) sweep, medians over sweeps");
-    println!();
+    let mut out = std::io::stdout().lock();
+    measure_and_print(
+        &mut out,
+        &args,
+        &cases,
+        &convergence_case,
+        &mut progress,
+        show_progress,
+    )
+    .or_else(super::ignore_broken_pipe)
+}
+
+/// Runs the cases, printing each table as soon as it is measured. A closed
+/// output pipe ends the run early.
+fn measure_and_print(
+    out: &mut impl Write,
+    args: &BenchArgs,
+    cases: &[Case],
+    convergence_case: &Case,
+    progress: &mut dyn FnMut(&str),
+    show_progress: bool,
+) -> io::Result<()> {
+    writeln!(
+        out,
+        "themata bench: fast samplers against the reference O(K) sweep, medians over sweeps"
+    )?;
+    writeln!(out)?;
     let mut rows = Vec::new();
-    for case in &cases {
-        let row = bench::throughput(case, args.threads, &mut progress);
+    for case in cases {
+        let row = bench::throughput(case, args.threads, progress);
         clear_progress(show_progress);
-        print_row_header_once(rows.is_empty(), args.threads);
-        print_row(&row);
+        print_row_header_once(out, rows.is_empty(), args.threads)?;
+        print_row(out, &row)?;
+        out.flush()?;
         rows.push(row);
     }
-    println!();
-    print_memory(&rows);
+    writeln!(out)?;
+    print_memory(out, &rows)?;
     let convergence = if args.no_convergence {
         None
     } else {
         let every = if args.quick { 2 } else { 10 };
-        let result = bench::convergence(&convergence_case, every, &mut progress);
+        let result = bench::convergence(convergence_case, every, progress);
         clear_progress(show_progress);
-        print_convergence(&result);
+        print_convergence(out, &result)?;
         Some(result)
     };
     if args.quick {
-        println!("(--quick: corpora too small for the targets; run without --quick to check them)");
+        writeln!(
+            out,
+            "(--quick: corpora too small for the targets; run without --quick to check them)"
+        )?;
     } else {
-        print_targets(&rows, convergence.as_ref(), args.threads);
+        print_targets(out, &rows, convergence.as_ref(), args.threads)?;
     }
-    Ok(())
+    out.flush()
 }
 
 fn clear_progress(shown: bool) {
@@ -159,9 +187,10 @@ fn clear_progress(shown: bool) {
     }
 }
 
-fn print_row_header_once(first: bool, threads: usize) {
+fn print_row_header_once(out: &mut impl Write, first: bool, threads: usize) -> io::Result<()> {
     if first {
-        println!(
+        writeln!(
+            out,
             "{:>10} {:>7} {:>6}  {:<10} {:>6}  {:>10} {:>10} {:>8}  {:>10} {:>7}  {:>5}  {:>8} {:>8}",
             "tokens",
             "words",
@@ -176,12 +205,14 @@ fn print_row_header_once(first: bool, threads: usize) {
             "same",
             "B/tok ref",
             "B/tok fast"
-        );
+        )?;
     }
+    Ok(())
 }
 
-fn print_row(row: &ThroughputRow) {
-    println!(
+fn print_row(out: &mut impl Write, row: &ThroughputRow) -> io::Result<()> {
+    writeln!(
+        out,
         "{:>10} {:>7} {:>6}  {:<10} {:>6}  {:>10} {:>10} {:>7.1}x  {:>10} {:>6.2}x  {:>5}  {:>8.1} {:>8.1}",
         row.case.tokens,
         row.case.words,
@@ -196,7 +227,8 @@ fn print_row(row: &ThroughputRow) {
         if row.parallel_identical { "yes" } else { "NO" },
         row.reference_bytes_per_token,
         row.fast_bytes_per_token,
-    );
+    )?;
+    Ok(())
 }
 
 fn rate(per_second: f64) -> String {
@@ -211,47 +243,56 @@ fn megabytes(bytes: Option<u64>) -> String {
     bytes.map_or_else(|| "n/a".to_string(), |b| format!("{:.0} MB", b as f64 / 1e6))
 }
 
-fn print_memory(rows: &[ThroughputRow]) {
-    println!("peak resident memory with the corpus and one fast chain (whole process):");
+fn print_memory(out: &mut impl Write, rows: &[ThroughputRow]) -> io::Result<()> {
+    writeln!(
+        out,
+        "peak resident memory with the corpus and one fast chain (whole process):"
+    )?;
     for row in rows {
-        println!(
+        writeln!(
+            out,
             "  {} tokens, V = {}, K = {}: {}",
             row.case.tokens,
             row.case.words,
             row.case.topics,
             megabytes(row.fast_peak_rss)
-        );
+        )?;
     }
-    println!();
+    writeln!(out)?;
+    Ok(())
 }
 
-fn print_convergence(result: &Convergence) {
-    println!(
+fn print_convergence(out: &mut impl Write, result: &Convergence) -> io::Result<()> {
+    writeln!(
+        out,
         "log-likelihood against sweep time, {} tokens, V = {}, K = {} (one thread each; fast = {}):",
         result.case.tokens,
         result.case.words,
         result.case.topics,
         result.fast_sampler.name()
-    );
-    println!(
+    )?;
+    writeln!(
+        out,
         "{:>8} {:>10} {:>14}    {:>8} {:>10} {:>14}",
         "ref swp", "ref s", "ref loglik", "fast swp", "fast s", "fast loglik"
-    );
+    )?;
     let rows = result.reference.len().max(result.fast.len());
     for idx in 0..rows {
         let cell = |point: Option<&bench::TracePoint>| match point {
             Some(p) => format!("{:>8} {:>10.2} {:>14.6e}", p.sweep, p.seconds, p.log_likelihood),
             None => format!("{:>8} {:>10} {:>14}", "", "", ""),
         };
-        println!(
+        writeln!(
+            out,
             "{}    {}",
             cell(result.reference.get(idx)),
             cell(result.fast.get(idx))
-        );
+        )?;
     }
     let reference_end = result.reference.last().copied();
     match (result.reached, reference_end) {
-        (Some(point), Some(end)) => println!(
+        (Some(point), Some(end)) => writeln!(
+            out,
             "fast reached the reference's final log-likelihood ({:.6e} after {} sweeps, {:.1} s) after {} sweeps, {:.1} s: {:.3} of the reference's time",
             end.log_likelihood,
             end.sweep,
@@ -259,18 +300,21 @@ fn print_convergence(result: &Convergence) {
             point.sweep,
             point.seconds,
             point.seconds / end.seconds
-        ),
-        (None, Some(end)) => println!(
+        )?,
+        (None, Some(end)) => writeln!(
+            out,
             "fast did not reach the reference's final log-likelihood ({:.6e}) within the reference's {:.1} s",
             end.log_likelihood, end.seconds
-        ),
+        )?,
         _ => {}
     }
-    println!();
+    writeln!(out)?;
+    Ok(())
 }
 
-fn print_large(run: &LargeRun) {
-    println!(
+fn print_large(out: &mut impl Write, run: &LargeRun) -> io::Result<()> {
+    writeln!(
+        out,
         "{} tokens, V = {}, K = {}: {} sampler, {} shards, {} threads",
         run.case.tokens,
         run.case.words,
@@ -278,31 +322,40 @@ fn print_large(run: &LargeRun) {
         run.fast_sampler.name(),
         run.shards,
         run.threads
-    );
-    println!("  corpus generated in {:.1} s", run.generate_seconds);
-    println!(
+    )?;
+    writeln!(out, "  corpus generated in {:.1} s", run.generate_seconds)?;
+    writeln!(
+        out,
         "  {} sweeps in {:.1} s ({:.2}M token updates/s)",
         run.case.sweeps,
         run.sweep_seconds,
         (run.case.sweeps * run.case.tokens) as f64 / run.sweep_seconds / 1e6
-    );
-    println!(
+    )?;
+    writeln!(
+        out,
         "  log-likelihood {:.6e} at the start, {:.6e} at the end",
         run.log_likelihood_first, run.log_likelihood_last
-    );
-    println!("  peak resident memory: {}", megabytes(run.peak_rss));
+    )?;
+    writeln!(out, "  peak resident memory: {}", megabytes(run.peak_rss))?;
+    Ok(())
 }
 
 /// The figures the samplers are held to, each beside its target.
-fn print_targets(rows: &[ThroughputRow], convergence: Option<&Convergence>, threads: usize) {
-    println!("targets:");
-    let line = |what: String, value: String, met: bool| {
-        println!(
+fn print_targets(
+    out: &mut impl Write,
+    rows: &[ThroughputRow],
+    convergence: Option<&Convergence>,
+    threads: usize,
+) -> io::Result<()> {
+    writeln!(out, "targets:")?;
+    let mut line = |what: String, value: String, met: bool| {
+        writeln!(
+            out,
             "  {:<58} {:>12}  {}",
             what,
             value,
             if met { "met" } else { "NOT met" }
-        );
+        )
     };
     for row in rows {
         let target = match row.case.topics {
@@ -317,7 +370,7 @@ fn print_targets(rows: &[ThroughputRow], convergence: Option<&Convergence>, thre
             ),
             format!("{:.1}x", row.speedup),
             row.speedup >= target,
-        );
+        )?;
     }
     for row in rows {
         line(
@@ -327,7 +380,7 @@ fn print_targets(rows: &[ThroughputRow], convergence: Option<&Convergence>, thre
             ),
             format!("{:.2}x", row.thread_speedup),
             row.thread_speedup >= 1.7,
-        );
+        )?;
     }
     if let Some(result) = convergence {
         match result.time_ratio() {
@@ -338,12 +391,12 @@ fn print_targets(rows: &[ThroughputRow], convergence: Option<&Convergence>, thre
                 ),
                 format!("{ratio:.3}"),
                 ratio <= 0.2,
-            ),
+            )?,
             None => line(
                 "time to the reference's log-likelihood (at most 1/5)".to_string(),
                 "not reached".to_string(),
                 false,
-            ),
+            )?,
         }
     }
     for row in rows.iter().filter(|row| row.case.tokens >= 10_000_000) {
@@ -355,7 +408,7 @@ fn print_targets(rows: &[ThroughputRow], convergence: Option<&Convergence>, thre
                 ),
                 format!("{:.0} MB", peak as f64 / 1e6),
                 peak <= 1_000_000_000,
-            );
+            )?;
         }
     }
     for row in rows.iter().filter(|row| row.case.topics == 1000) {
@@ -366,6 +419,7 @@ fn print_targets(rows: &[ThroughputRow], convergence: Option<&Convergence>, thre
             ),
             rate(row.fast_per_second),
             row.fast_per_second >= 5e6,
-        );
+        )?;
     }
+    Ok(())
 }

@@ -207,6 +207,15 @@ pub struct RunArgs {
     pub quiet: bool,
 }
 
+/// A closed pipe (`themata show | head`) is not an error.
+pub fn ignore_broken_pipe(err: std::io::Error) -> Result<(), Failure> {
+    if err.kind() == std::io::ErrorKind::BrokenPipe {
+        Ok(())
+    } else {
+        Err(Failure::system(err))
+    }
+}
+
 /// The whole chain of an error once: each cause is added unless the message
 /// already says it.
 pub fn describe(error: &anyhow::Error) -> String {

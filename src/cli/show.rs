@@ -50,14 +50,7 @@ pub fn run(args: ShowArgs) -> Result<(), Failure> {
         let topics = report::topic_listings(&model, args.words, args.interval).map_err(Failure::bad_input)?;
         report::write_topics(&mut out, &topics, args.format)
     };
-    written.and_then(|()| out.flush()).or_else(ignore_broken_pipe)
-}
-
-/// A closed pipe (`themata show | head`) is not an error.
-fn ignore_broken_pipe(err: std::io::Error) -> Result<(), Failure> {
-    if err.kind() == std::io::ErrorKind::BrokenPipe {
-        Ok(())
-    } else {
-        Err(Failure::system(err))
-    }
+    written
+        .and_then(|()| out.flush())
+        .or_else(super::ignore_broken_pipe)
 }

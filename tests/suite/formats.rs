@@ -104,3 +104,33 @@ fn version_one_model_files_still_load() {
     assert_eq!(back.state, model.state);
     assert_eq!(back.samples, model.samples);
 }
+
+#[test]
+fn version_two_model_files_load_and_continue() {
+    // Source: tests/fixtures/model-v2.bin, written by this version (commit
+    // after 08c186a) with `fit -k 2 --iterations 30 --burn-in 10 --samples 2
+    // --lag 5 --trace-every 5 --seed 5 --sampler metropolis --shards 2` on
+    // the corpus built from tests/fixtures/model-v1-source.jsonl (`build
+    // --stopwords none --min-docs 1 --max-doc-share 1`); the weights below
+    // are what `show --format tsv` printed then.
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/model-v2.bin");
+    let model = Model::load(&path).unwrap();
+    assert_eq!(model.schedule.sampler, themata::fit::SamplerKind::Metropolis);
+    assert_eq!(model.schedule.shards, 2);
+    assert_eq!(model.iterations_done, 30);
+    let kettle = model.corpus.vocabulary.id("kettle").unwrap() as usize;
+    let pedal = model.corpus.vocabulary.id("pedal").unwrap() as usize;
+    assert!((model.topic_word_row(0)[kettle] - 0.3092668241280714).abs() < 1e-12);
+    assert!((model.topic_word_row(1)[pedal] - 0.2687931634173267).abs() < 1e-12);
+    // Continuing it runs the stored sampler, the same way every time.
+    let continued = || {
+        let mut model = Model::load(&path).unwrap();
+        themata::fit::extend(&mut model, 8).unwrap();
+        themata::fit::run_to_target(&mut model, &mut |_| {}, &mut |_| {
+            std::ops::ControlFlow::Continue(())
+        })
+        .unwrap();
+        model.encode(&path).unwrap()
+    };
+    assert_eq!(continued(), continued());
+}
