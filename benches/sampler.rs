@@ -42,12 +42,12 @@ fn sweeps(c: &mut Criterion) {
             ("metropolis", BlockKernel::Metropolis),
         ] {
             let mut state = start.clone();
-            let mut engine = ShardedSampler::new(&corpus, default_shards(corpus.n_tokens(), kernel));
+            let mut engine = ShardedSampler::new(&corpus, default_shards(corpus.n_tokens(), kernel), kernel);
             let mut iteration = 0;
             group.bench_with_input(BenchmarkId::new(name, n_topics), &n_topics, |b, _| {
                 b.iter(|| {
                     iteration += 1;
-                    engine.sweep(kernel, &mut state, &corpus, &priors, 1, iteration);
+                    engine.sweep(&mut state, &corpus, &priors, 1, iteration);
                 });
             });
         }

@@ -155,12 +155,6 @@ pub fn median(values: &[f64]) -> f64 {
     }
 }
 
-/// A fast chain: its state, its driver and the kernel `auto` picks.
-struct FastChain {
-    state: CountState,
-    kernel: BlockKernel,
-}
-
 /// What every measurement starts from: the case's corpus and priors, the
 /// fast sampler `auto` picks for its K, and one random starting state.
 struct Setup {
@@ -195,10 +189,8 @@ impl Setup {
 
     /// A driver with the default shard count for this corpus and kernel.
     fn engine(&self) -> ShardedSampler {
-        ShardedSampler::new(
-            &self.corpus,
-            sampler::default_shards(self.corpus.n_tokens(), self.kernel),
-        )
+        let shards = sampler::default_shards(self.corpus.n_tokens(), self.kernel);
+        ShardedSampler::new(&self.corpus, shards, self.kernel)
     }
 }
 
@@ -219,36 +211,31 @@ fn timed(work: impl FnOnce()) -> f64 {
 /// Measures one case: reference, fast on one thread and fast on `threads`
 /// threads, one sweep each in turn.
 pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -> ThroughputRow {
-    let Setup {
-        corpus,
-        priors,
-        fast_sampler,
-        kernel,
-        start,
-    } = Setup::new(case, progress);
+    let setup = Setup::new(case, progress);
     let one = pool(1);
     let many = pool(threads);
 
     // Memory first, while only the corpus and one fast chain exist.
     let peak_reset = memory::reset_peak();
-    let mut engine = ShardedSampler::new(&corpus, sampler::default_shards(corpus.n_tokens(), kernel));
-    let mut fast = FastChain {
-        state: start.clone(),
-        kernel,
-    };
-    one.install(|| engine.sweep(fast.kernel, &mut fast.state, &corpus, &priors, 7, 1));
+    let mut engine = setup.engine();
+    let Setup {
+        corpus,
+        priors,
+        fast_sampler,
+        start,
+        ..
+    } = setup;
+    let mut fast = start.clone();
+    one.install(|| engine.sweep(&mut fast, &corpus, &priors, 7, 1));
     let fast_peak_rss = if peak_reset {
         memory::peak_rss_bytes()
     } else {
         None
     };
-    let fast_bytes = fast.state.heap_bytes() + engine.heap_bytes();
+    let fast_bytes = fast.heap_bytes() + engine.heap_bytes();
 
-    let mut parallel = FastChain {
-        state: start.clone(),
-        kernel,
-    };
-    many.install(|| engine.sweep(parallel.kernel, &mut parallel.state, &corpus, &priors, 7, 1));
+    let mut parallel = start.clone();
+    many.install(|| engine.sweep(&mut parallel, &corpus, &priors, 7, 1));
     let mut reference = start;
     let mut reference_rng = Xoshiro256PlusPlus::seed_from_u64(2);
     progress("reference: untimed first sweep");
@@ -263,21 +250,9 @@ pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -
         let iteration = sweep as u64 + 2;
         let reference_seconds =
             timed(|| sampler::sweep_reference(&mut reference, &corpus, &priors, &mut reference_rng));
-        let fast_seconds = timed(|| {
-            one.install(|| engine.sweep(fast.kernel, &mut fast.state, &corpus, &priors, 7, iteration))
-        });
-        let parallel_seconds = timed(|| {
-            many.install(|| {
-                engine.sweep(
-                    parallel.kernel,
-                    &mut parallel.state,
-                    &corpus,
-                    &priors,
-                    7,
-                    iteration,
-                )
-            })
-        });
+        let fast_seconds = timed(|| one.install(|| engine.sweep(&mut fast, &corpus, &priors, 7, iteration)));
+        let parallel_seconds =
+            timed(|| many.install(|| engine.sweep(&mut parallel, &corpus, &priors, 7, iteration)));
         reference_rates.push(tokens / reference_seconds);
         fast_rates.push(tokens / fast_seconds);
         parallel_rates.push(tokens / parallel_seconds);
@@ -294,13 +269,13 @@ pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -
         threads,
         parallel_per_second: median(&parallel_rates),
         thread_speedup: median(&thread_speedups),
-        parallel_identical: fast.state == parallel.state,
+        parallel_identical: fast == parallel,
         reference_bytes_per_token: reference_bytes as f64 / tokens,
         fast_bytes_per_token: fast_bytes as f64 / tokens,
         fast_peak_rss,
         log_likelihood: (
             sampler::log_likelihood(&reference, &corpus, &priors).total(),
-            sampler::log_likelihood(&fast.state, &corpus, &priors).total(),
+            sampler::log_likelihood(&fast, &corpus, &priors).total(),
         ),
     }
 }
@@ -315,8 +290,8 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
         corpus,
         priors,
         fast_sampler,
-        kernel,
         start,
+        ..
     } = &setup;
     let every = every.max(1);
     let log_likelihood = |state: &CountState| sampler::log_likelihood(state, corpus, priors).total();
@@ -361,8 +336,7 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
     let mut sweep = 0;
     while reached.is_none() && seconds < budget && sweep < 20 * case.sweeps.max(1) {
         sweep += 1;
-        seconds +=
-            timed(|| one.install(|| engine.sweep(*kernel, &mut state, corpus, priors, 7, sweep as u64)));
+        seconds += timed(|| one.install(|| engine.sweep(&mut state, corpus, priors, 7, sweep as u64)));
         let check = sweep % every.div_ceil(2).max(1) == 0;
         if check {
             let point = point("fast", sweep, seconds, &state);
@@ -392,15 +366,15 @@ pub fn large_run(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) ->
         corpus,
         priors,
         fast_sampler,
-        kernel,
         start,
+        ..
     } = setup;
     let mut state = start;
     let log_likelihood_first = sampler::log_likelihood(&state, &corpus, &priors).total();
     let mut sweep_seconds = 0.0;
     for sweep in 1..=case.sweeps {
         sweep_seconds +=
-            timed(|| many.install(|| engine.sweep(kernel, &mut state, &corpus, &priors, 7, sweep as u64)));
+            timed(|| many.install(|| engine.sweep(&mut state, &corpus, &priors, 7, sweep as u64)));
         progress(&format!(
             "sweep {sweep} of {}: {:.1} s so far ({:.2}M token updates/s)",
             case.sweeps,

@@ -69,6 +69,32 @@ impl BlockKernel {
     }
 }
 
+impl BlockKernel {
+    /// The expected cost of each word's tokens, by which word groups are
+    /// balanced. The MH kernel costs about the same per token. The exact
+    /// kernel makes a full O(K) pass for the first token of a word in a
+    /// document and an O(1) update for a repeat (tokens are ordered by word
+    /// within a document), so a word costs about its document frequency,
+    /// plus a little per token.
+    fn word_costs(self, corpus: &Corpus, word_tokens: &[u64]) -> Vec<u64> {
+        match self {
+            BlockKernel::Metropolis => word_tokens.to_vec(),
+            BlockKernel::Exact => {
+                let mut costs: Vec<u64> = word_tokens.iter().map(|&tokens| tokens.div_ceil(8)).collect();
+                let mut last_doc = vec![usize::MAX; word_tokens.len()];
+                for doc in 0..corpus.n_docs() {
+                    for &word in corpus.doc_tokens(doc) {
+                        if std::mem::replace(&mut last_doc[word as usize], doc) != doc {
+                            costs[word as usize] += 1;
+                        }
+                    }
+                }
+                costs
+            }
+        }
+    }
+}
+
 /// The shard count used when none is given: one per
 /// [`BlockKernel::tokens_per_shard`] tokens, between 1 and [`MAX_AUTO_SHARDS`].
 pub fn default_shards(n_tokens: usize, kernel: BlockKernel) -> usize {
@@ -121,10 +147,11 @@ pub fn plan_shards(corpus: &Corpus, n_shards: usize) -> Vec<Shard> {
     shards
 }
 
-/// Cuts the words `0..word_tokens.len()` into `n_groups` contiguous ranges
-/// with about equal token counts; returns the `n_groups + 1` bounds (a range
-/// may be empty when one word holds more than a group's share).
-pub fn plan_word_groups(word_tokens: &[u64], n_groups: usize) -> Vec<usize> {
+/// Cuts the words `0..word_costs.len()` into `n_groups` contiguous ranges
+/// with about equal total cost; returns the `n_groups + 1` bounds (a range
+/// may be empty when one word costs more than a group's share).
+pub fn plan_word_groups(word_costs: &[u64], n_groups: usize) -> Vec<usize> {
+    let word_tokens = word_costs;
     let total: u64 = word_tokens.iter().sum();
     let mut bounds = vec![0usize];
     let mut word = 0usize;
@@ -240,6 +267,7 @@ pub struct Block<'a> {
 /// a model is loaded.
 #[derive(Debug)]
 pub struct ShardedSampler {
+    kernel: BlockKernel,
     shards: Vec<Shard>,
     word_bounds: Vec<usize>,
     slot_bounds: Vec<usize>,
@@ -265,20 +293,20 @@ pub struct ShardedSampler {
 }
 
 impl ShardedSampler {
-    /// Prepares sweeps of `corpus` on a grid of `n_shards` x `n_shards` blocks
-    /// (fewer when the corpus has fewer documents).
+    /// Prepares sweeps of `corpus` with `kernel` on a grid of `n_shards` x
+    /// `n_shards` blocks (fewer when the corpus has fewer documents).
     ///
     /// # Panics
     /// When the corpus has more than [`MAX_TOKENS`] tokens (`fit` refuses
     /// such corpora first).
-    pub fn new(corpus: &Corpus, n_shards: usize) -> ShardedSampler {
+    pub fn new(corpus: &Corpus, n_shards: usize, kernel: BlockKernel) -> ShardedSampler {
         let n_tokens = corpus.n_tokens();
         assert!(n_tokens <= MAX_TOKENS, "at most {MAX_TOKENS} tokens");
         let n_words = corpus.vocabulary.len();
         let shards = plan_shards(corpus, n_shards);
         let n_groups = shards.len();
         let word_tokens = super::word_token_counts(corpus);
-        let word_bounds = plan_word_groups(&word_tokens, n_groups);
+        let word_bounds = plan_word_groups(&kernel.word_costs(corpus, &word_tokens), n_groups);
         let mut group_of_word = vec![0u32; n_words];
         for (group, pair) in word_bounds.windows(2).enumerate() {
             group_of_word[pair[0]..pair[1]].fill(group as u32);
@@ -332,6 +360,7 @@ impl ShardedSampler {
         let slot_bounds = word_bounds.iter().map(|&word| word_first[word]).collect();
 
         ShardedSampler {
+            kernel,
             shards,
             word_bounds,
             slot_bounds,
@@ -375,16 +404,16 @@ impl ShardedSampler {
             + workspaces
     }
 
-    /// One sweep of `kernel` over every block.
+    /// One sweep of the kernel over every block.
     pub fn sweep(
         &mut self,
-        kernel: BlockKernel,
         state: &mut CountState,
         corpus: &Corpus,
         priors: &Priors,
         seed: u64,
         iteration: u64,
     ) {
+        let kernel = self.kernel;
         self.load(state, kernel == BlockKernel::Metropolis);
         let n_groups = self.shards.len();
         let metropolis = MetropolisKernel::new(priors, state.n_topics, state.n_words);
@@ -644,7 +673,7 @@ mod tests {
     fn sampler_order_groups_each_document_by_word() {
         // Source: common practice — a within-document permutation keeps every token once.
         let corpus = corpus(&[3, 4, 2]);
-        let sampler = ShardedSampler::new(&corpus, 2);
+        let sampler = ShardedSampler::new(&corpus, 2, BlockKernel::Exact);
         let mut seen = sampler.source.clone();
         seen.sort_unstable();
         assert_eq!(seen, (0..9).collect::<Vec<u32>>());

@@ -187,8 +187,8 @@ fn block_sweep(
     rng: &mut Xoshiro256PlusPlus,
 ) {
     use rand::Rng;
-    let mut engine = ShardedSampler::new(corpus, 1);
-    engine.sweep(kernel, state, corpus, priors, rng.next_u64(), rng.next_u64());
+    let mut engine = ShardedSampler::new(corpus, 1, kernel);
+    engine.sweep(state, corpus, priors, rng.next_u64(), rng.next_u64());
 }
 
 fn metropolis(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut Xoshiro256PlusPlus) {

@@ -94,12 +94,16 @@ fn visit_frequencies(which: Which, priors: &Priors, n_topics: usize, sweeps: usi
     let corpus = tiny_corpus();
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     let mut state = CountState::random(&corpus, n_topics, &mut rng);
-    let mut engine = ShardedSampler::new(&corpus, 1);
+    let kernel = match which {
+        Which::Block(kernel) => kernel,
+        Which::Reference => BlockKernel::Exact,
+    };
+    let mut engine = ShardedSampler::new(&corpus, 1, kernel);
     let mut visits = vec![0.0; n_topics.pow(corpus.n_tokens() as u32)];
     for sweep in 0..sweeps + 100 {
         match which {
             Which::Reference => sweep_reference(&mut state, &corpus, priors, &mut rng),
-            Which::Block(kernel) => engine.sweep(kernel, &mut state, &corpus, priors, seed, sweep as u64),
+            Which::Block(_) => engine.sweep(&mut state, &corpus, priors, seed, sweep as u64),
         }
         if sweep >= 100 {
             visits[state_index(&state.assignments, n_topics)] += 1.0;
@@ -184,12 +188,16 @@ fn log_likelihood_path(corpus: &Corpus, which: Which, shards: usize, sweeps: usi
     };
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     let mut state = CountState::random(corpus, n_topics, &mut rng);
-    let mut engine = ShardedSampler::new(corpus, shards);
+    let kernel = match which {
+        Which::Block(kernel) => kernel,
+        Which::Reference => BlockKernel::Exact,
+    };
+    let mut engine = ShardedSampler::new(corpus, shards, kernel);
     (1..=sweeps)
         .map(|sweep| {
             match which {
                 Which::Reference => sweep_reference(&mut state, corpus, &priors, &mut rng),
-                Which::Block(kernel) => engine.sweep(kernel, &mut state, corpus, &priors, seed, sweep as u64),
+                Which::Block(_) => engine.sweep(&mut state, corpus, &priors, seed, sweep as u64),
             }
             sampler::log_likelihood(&state, corpus, &priors).total()
         })
