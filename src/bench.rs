@@ -110,6 +110,9 @@ pub struct LargeRun {
     pub peak_rss: Option<u64>,
 }
 
+/// Fast sweeps run after each reference sweep in the convergence comparison.
+const FAST_PER_REFERENCE: usize = 2;
+
 /// Document length of the generated corpora.
 pub const MEAN_DOC_LEN: usize = 100;
 /// Total document-topic concentration `a0` of generation and sampling
@@ -281,9 +284,9 @@ pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -
 }
 
 /// Log-likelihood against sweep time: the reference for `case.sweeps`
-/// sweeps, then the fast sampler (one thread) from the same start until it
-/// reaches the reference's final log-likelihood or has swept as long as the
-/// reference did. Points every `every` sweeps.
+/// sweeps and the fast sampler (one thread) from the same start, interleaved,
+/// the fast one until it reaches the reference's final log-likelihood or has
+/// swept as long as the reference did. Points every `every` sweeps.
 pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) -> Convergence {
     let setup = Setup::new(case, progress);
     let Setup {
@@ -308,43 +311,66 @@ pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) ->
         point
     };
 
-    let mut state = start.clone();
+    // The two chains run interleaved, FAST_PER_REFERENCE fast sweeps after
+    // each reference sweep, so that both see the same machine: run one after
+    // the other, minutes apart, their times were seen to drift by a third.
+    // Which fast point first reaches the reference's final value is decided
+    // once the reference has finished; if none has by then, the fast chain
+    // goes on alone.
+    let one = pool(1);
+    let mut engine = setup.engine();
+    let mut reference_state = start.clone();
+    let mut fast_state = start.clone();
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(2);
-    let mut seconds = 0.0;
-    let mut reference = vec![TracePoint {
+    let initial = TracePoint {
         sweep: 0,
         seconds: 0.0,
-        log_likelihood: log_likelihood(&state),
-    }];
+        log_likelihood: log_likelihood(start),
+    };
+    let (mut reference, mut fast) = (vec![initial], vec![initial]);
+    let mut reference_seconds = 0.0;
+    let fast_every = every.div_ceil(2).max(1);
+    // Sweep number and seconds of the fast chain.
+    let mut fast_clock = (0usize, 0.0f64);
+    let mut fast_step = |fast: &mut Vec<TracePoint>,
+                         point: &mut dyn FnMut(&str, usize, f64, &CountState) -> TracePoint|
+     -> f64 {
+        let (sweep, seconds) = &mut fast_clock;
+        *sweep += 1;
+        *seconds += timed(|| one.install(|| engine.sweep(&mut fast_state, corpus, priors, 7, *sweep as u64)));
+        if *sweep % fast_every == 0 {
+            fast.push(point("fast", *sweep, *seconds, &fast_state));
+        }
+        *seconds
+    };
     for sweep in 1..=case.sweeps {
-        seconds += timed(|| sampler::sweep_reference(&mut state, corpus, priors, &mut rng));
+        reference_seconds +=
+            timed(|| sampler::sweep_reference(&mut reference_state, corpus, priors, &mut rng));
         if sweep % every == 0 || sweep == case.sweeps {
-            reference.push(point("reference", sweep, seconds, &state));
+            reference.push(point("reference", sweep, reference_seconds, &reference_state));
+        }
+        for _ in 0..FAST_PER_REFERENCE {
+            fast_step(&mut fast, &mut point);
         }
     }
     let target = reference
         .last()
         .map_or(f64::INFINITY, |point| point.log_likelihood);
-    let budget = seconds;
-
-    let one = pool(1);
-    let mut engine = setup.engine();
-    let mut state = start.clone();
-    let mut seconds = 0.0;
-    let mut fast = vec![reference[0]];
-    let mut reached = None;
-    let mut sweep = 0;
-    while reached.is_none() && seconds < budget && sweep < 20 * case.sweeps.max(1) {
-        sweep += 1;
-        seconds += timed(|| one.install(|| engine.sweep(&mut state, corpus, priors, 7, sweep as u64)));
-        let check = sweep % every.div_ceil(2).max(1) == 0;
-        if check {
-            let point = point("fast", sweep, seconds, &state);
-            if point.log_likelihood >= target {
-                reached = Some(point);
-            }
-            fast.push(point);
+    let mut reached = fast
+        .iter()
+        .copied()
+        .find(|point| point.sweep > 0 && point.log_likelihood >= target);
+    let mut fast_seconds = fast.last().map_or(0.0, |point| point.seconds);
+    while reached.is_none() && fast_seconds < reference_seconds {
+        fast_seconds = fast_step(&mut fast, &mut point);
+        let last = *fast.last().expect("the initial point");
+        if last.sweep > 0 && last.log_likelihood >= target {
+            reached = Some(last);
         }
+    }
+    // Points past the one that reached the target say nothing more.
+    if let Some(hit) = reached {
+        fast.retain(|point| point.sweep <= hit.sweep);
     }
     Convergence {
         case: case.clone(),

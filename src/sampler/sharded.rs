@@ -71,27 +71,34 @@ impl BlockKernel {
 
 impl BlockKernel {
     /// The expected cost of each word's tokens, by which word groups are
-    /// balanced. The MH kernel costs about the same per token. The exact
-    /// kernel makes a full O(K) pass for the first token of a word in a
-    /// document and an O(1) update for a repeat (tokens are ordered by word
-    /// within a document), so a word costs about its document frequency,
-    /// plus a little per token.
+    /// balanced; both kernels' costs follow a word's token count `n_w` and
+    /// its document frequency `df_w` (tokens are ordered by word within a
+    /// document, so a document's run of one word is contiguous):
+    ///
+    /// - exact: a full O(K) pass for the first token of a run, an O(1) update
+    ///   for each repeat, so `df_w + n_w / 8`;
+    /// - Metropolis-Hastings: about the same work per token, but a token of a
+    ///   rare word misses the cache for its row and word list, which a run of
+    ///   a frequent word keeps warm; measured per token, blocks of rare words
+    ///   took about twice as long, so `n_w + df_w`.
     fn word_costs(self, corpus: &Corpus, word_tokens: &[u64]) -> Vec<u64> {
-        match self {
-            BlockKernel::Metropolis => word_tokens.to_vec(),
-            BlockKernel::Exact => {
-                let mut costs: Vec<u64> = word_tokens.iter().map(|&tokens| tokens.div_ceil(8)).collect();
-                let mut last_doc = vec![usize::MAX; word_tokens.len()];
-                for doc in 0..corpus.n_docs() {
-                    for &word in corpus.doc_tokens(doc) {
-                        if std::mem::replace(&mut last_doc[word as usize], doc) != doc {
-                            costs[word as usize] += 1;
-                        }
-                    }
+        let mut doc_frequency = vec![0u64; word_tokens.len()];
+        let mut last_doc = vec![usize::MAX; word_tokens.len()];
+        for doc in 0..corpus.n_docs() {
+            for &word in corpus.doc_tokens(doc) {
+                if std::mem::replace(&mut last_doc[word as usize], doc) != doc {
+                    doc_frequency[word as usize] += 1;
                 }
-                costs
             }
         }
+        word_tokens
+            .iter()
+            .zip(&doc_frequency)
+            .map(|(&tokens, &documents)| match self {
+                BlockKernel::Exact => documents + tokens.div_ceil(8),
+                BlockKernel::Metropolis => documents + tokens,
+            })
+            .collect()
     }
 }
 
@@ -286,8 +293,9 @@ pub struct ShardedSampler {
     /// For document d, `doc_groups[d * (P + 1) + q]` is the sampler position
     /// where its tokens of word group q start.
     doc_groups: Vec<u32>,
-    /// Tokens of block (p, q) at `block_tokens[p * P + q]`.
-    block_tokens: Vec<usize>,
+    /// Expected cost of block (p, q) at `block_costs[p * P + q]`, in the
+    /// units of `BlockKernel::word_costs`.
+    block_costs: Vec<f64>,
     records: Vec<WordRecord>,
     workspaces: Vec<Mutex<Option<Workspace>>>,
 }
@@ -306,7 +314,8 @@ impl ShardedSampler {
         let shards = plan_shards(corpus, n_shards);
         let n_groups = shards.len();
         let word_tokens = super::word_token_counts(corpus);
-        let word_bounds = plan_word_groups(&kernel.word_costs(corpus, &word_tokens), n_groups);
+        let word_costs = kernel.word_costs(corpus, &word_tokens);
+        let word_bounds = plan_word_groups(&word_costs, n_groups);
         let mut group_of_word = vec![0u32; n_words];
         for (group, pair) in word_bounds.windows(2).enumerate() {
             group_of_word[pair[0]..pair[1]].fill(group as u32);
@@ -332,14 +341,14 @@ impl ShardedSampler {
             .iter()
             .map(|&token| corpus.tokens[token as usize])
             .collect();
-        let stride = n_groups + 1;
-        let mut block_tokens = vec![0usize; n_groups * n_groups];
+        // A block's cost: its tokens, each weighted by its word's cost per token.
+        let mut block_costs = vec![0.0; n_groups * n_groups];
         for shard in &shards {
-            for doc in shard.docs.clone() {
-                for group in 0..n_groups {
-                    block_tokens[shard.index * n_groups + group] +=
-                        (doc_groups[doc * stride + group + 1] - doc_groups[doc * stride + group]) as usize;
-                }
+            for position in shard.tokens.clone() {
+                let word = words[position] as usize;
+                let group = group_of_word[word] as usize;
+                block_costs[shard.index * n_groups + group] +=
+                    word_costs[word] as f64 / word_tokens[word] as f64;
             }
         }
 
@@ -371,7 +380,7 @@ impl ShardedSampler {
             entries,
             word_first,
             doc_groups,
-            block_tokens,
+            block_costs,
             records: Vec::new(),
             workspaces: Vec::new(),
         }
@@ -399,7 +408,7 @@ impl ShardedSampler {
             + self.slot_of.len() * 4
             + self.entries.len() * 8
             + self.doc_groups.len() * 4
-            + self.block_tokens.len() * 8
+            + self.block_costs.len() * 8
             + self.records.len() * std::mem::size_of::<WordRecord>()
             + workspaces
     }
@@ -431,7 +440,7 @@ impl ShardedSampler {
             slot_of,
             entries,
             doc_groups,
-            block_tokens,
+            block_costs,
             records,
             workspaces,
             ..
@@ -480,9 +489,9 @@ impl ShardedSampler {
                     }
                 })
                 .collect();
-            // Largest blocks first, handed out one at a time, so that threads
-            // finish an epoch close together.
-            blocks.sort_by_key(|block| std::cmp::Reverse(block_tokens[block.index]));
+            // Costliest blocks first, handed out one at a time, so that
+            // threads finish an epoch close together.
+            blocks.sort_by(|a, b| block_costs[b.index].total_cmp(&block_costs[a.index]));
             let run_block = |block: Block<'_>| {
                 let slot_idx = rayon::current_thread_index().unwrap_or(0) % workspaces.len();
                 let mut slot = workspaces[slot_idx].lock().expect("workspace lock");
