@@ -368,7 +368,7 @@ fn print_targets(
                 "fast/ref at K = {}, {} tokens (at least {target}x)",
                 row.case.topics, row.case.tokens
             ),
-            format!("{:.1}x", row.speedup),
+            format!("{:.2}x", row.speedup),
             row.speedup >= target,
         )?;
     }
