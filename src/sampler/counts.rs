@@ -132,6 +132,35 @@ fn row_decrement(cells: &mut [u32], offset: usize, layout: RowLayout, topic: Top
     }
 }
 
+/// The counts of a row as K dense counters: a dense row as it is stored, a
+/// sparse one written into `scratch` (length K, all zero on entry; undo with
+/// [`row_clear_dense`]). Topics come in id order either way, so what is
+/// computed from them never depends on the cell layout of a sparse row.
+#[inline]
+fn row_dense<'s>(cells: &'s [u32], offset: usize, layout: RowLayout, scratch: &'s mut [u32]) -> &'s [u32] {
+    let start = layout.start - offset;
+    if layout.mask == DENSE {
+        return &cells[start..start + scratch.len()];
+    }
+    for &cell in &cells[start..=start + layout.mask as usize] {
+        if cell != 0 {
+            scratch[cell_topic(cell) as usize] = cell_count(cell);
+        }
+    }
+    scratch
+}
+
+/// Zeroes what [`row_dense`] wrote into `scratch`.
+#[inline]
+fn row_clear_dense(cells: &[u32], offset: usize, layout: RowLayout, scratch: &mut [u32]) {
+    if layout.mask != DENSE {
+        let start = layout.start - offset;
+        for &cell in &cells[start..=start + layout.mask as usize] {
+            scratch[cell_topic(cell) as usize] = 0;
+        }
+    }
+}
+
 /// The cell holding (or first probed for) `topic` in a row, for prefetching.
 #[inline]
 fn row_cell(layout: RowLayout, topic: Topic) -> usize {
@@ -261,19 +290,12 @@ impl WordTopicCounts {
     /// Writes word `word_idx`'s counts into `dense` (length K, all zero on
     /// entry) and returns it; a dense row is returned as it is stored.
     pub fn row_dense<'a>(&'a self, word_idx: usize, dense: &'a mut [u32]) -> &'a [u32] {
-        let start = self.row_start[word_idx];
-        if self.row_mask[word_idx] == DENSE {
-            return &self.cells[start..start + self.n_topics];
-        }
-        self.for_each_nonzero(word_idx, |topic, count| dense[topic as usize] = count);
-        dense
+        row_dense(&self.cells, 0, self.layout(word_idx), dense)
     }
 
     /// Undoes what [`row_dense`](Self::row_dense) wrote into `dense`.
     pub fn clear_dense(&self, word_idx: usize, dense: &mut [u32]) {
-        if self.row_mask[word_idx] != DENSE {
-            self.for_each_nonzero(word_idx, |topic, _| dense[topic as usize] = 0);
-        }
+        row_clear_dense(&self.cells, 0, self.layout(word_idx), dense);
     }
 
     /// Splits the table into disjoint mutable parts, one per range of words
@@ -353,34 +375,16 @@ impl RowsMut<'_> {
         row_decrement(self.cells, self.offset, layout, topic);
     }
 
-    /// The counts of row `layout` as K dense counters: a dense row as it is
-    /// stored, a sparse one written into `scratch` (all zero on entry; undo
-    /// with [`clear_dense`](Self::clear_dense)). Topics come in id order
-    /// either way, so what is computed from them never depends on the
-    /// layout of a sparse row.
+    /// The counts of row `layout` as K dense counters (see [`row_dense`]).
     #[inline]
     pub fn dense_row<'s>(&'s self, layout: RowLayout, scratch: &'s mut [u32]) -> &'s [u32] {
-        let start = layout.start - self.offset;
-        if layout.mask == DENSE {
-            return &self.cells[start..start + scratch.len()];
-        }
-        for &cell in &self.cells[start..=start + layout.mask as usize] {
-            if cell != 0 {
-                scratch[cell_topic(cell) as usize] = cell_count(cell);
-            }
-        }
-        scratch
+        row_dense(self.cells, self.offset, layout, scratch)
     }
 
     /// Zeroes what [`dense_row`](Self::dense_row) wrote into `scratch`.
     #[inline]
     pub fn clear_dense(&self, layout: RowLayout, scratch: &mut [u32]) {
-        if layout.mask != DENSE {
-            let start = layout.start - self.offset;
-            for &cell in &self.cells[start..=start + layout.mask as usize] {
-                scratch[cell_topic(cell) as usize] = 0;
-            }
-        }
+        row_clear_dense(self.cells, self.offset, layout, scratch);
     }
 
     /// Hints that `topic`'s cell of row `layout` will be read soon.

@@ -24,7 +24,7 @@ use rand::RngExt;
 
 use super::prefetch::prefetch;
 use super::sharded::{Block, BlockContext, Workspace, block_stream};
-use super::{BetaPrior, Priors, Topic};
+use super::{Priors, Topic};
 
 /// Weights summed together before the draw scans them.
 const CHUNK: usize = 8;
@@ -40,8 +40,7 @@ fn tree_sum(w: &[f64; CHUNK]) -> f64 {
 
 /// The per-sweep constants of the exact kernel.
 pub struct ExactKernel<'a> {
-    alpha: &'a [f64],
-    beta: &'a BetaPrior,
+    priors: &'a Priors,
     beta_sum: f64,
     n_topics: usize,
 }
@@ -67,8 +66,7 @@ impl<'a> ExactKernel<'a> {
     /// The kernel for one sweep with these priors.
     pub fn new(priors: &'a Priors, n_topics: usize, n_words: usize) -> ExactKernel<'a> {
         ExactKernel {
-            alpha: &priors.alpha,
-            beta: &priors.beta,
+            priors,
             beta_sum: priors.beta_sum(n_words),
             n_topics,
         }
@@ -76,8 +74,8 @@ impl<'a> ExactKernel<'a> {
 
     /// Samples every token of `block` once, document by document.
     pub fn sample_block(&self, context: &BlockContext<'_>, block: Block<'_>, workspace: &mut Workspace) {
-        // The word-major list is not read by this kernel, so it is not kept
-        // up to date here; every sweep starts by rebuilding it.
+        // The word-major list is read only by the Metropolis-Hastings
+        // kernel, so this one leaves it alone.
         let Block {
             index,
             shard,
@@ -114,7 +112,7 @@ impl<'a> ExactKernel<'a> {
         // Weights past K stay zero: they pad the last chunk.
         weights.fill(0.0);
         let beta_sum = self.beta_sum;
-        let alpha = self.alpha;
+        let alpha = self.priors.alpha.as_slice();
         for topic in 0..n_topics {
             inverse_total[topic] = 1.0 / (topic_totals[topic] as f64 + beta_sum);
             coefficient[topic] = alpha[topic] * inverse_total[topic];
@@ -160,10 +158,7 @@ impl<'a> ExactKernel<'a> {
                 let local = position - first_token;
                 let word = context.words[position] as usize;
                 let row = context.records[word].row;
-                let beta = match self.beta {
-                    BetaPrior::Symmetric(value) => *value,
-                    BetaPrior::Asymmetric(values) => values[word],
-                };
+                let beta = self.priors.beta_of(word);
                 let old = topics[local];
                 let moved = |topic: usize, change: i64, doc_counts: &mut [u32], totals: &mut [u64]| {
                     doc_counts[topic] = doc_counts[topic].wrapping_add_signed(change as i32);

@@ -32,7 +32,7 @@ use rand_distr::weighted::WeightedAliasIndex;
 use super::counts::{RowLayout, RowsMut};
 use super::prefetch::prefetch;
 use super::sharded::{Block, BlockContext, WordRecord, Workspace, block_stream, pack_entry, unpack_entry};
-use super::{BetaPrior, Priors, Topic};
+use super::{Priors, Topic};
 
 /// Document-then-word proposal pairs per token and sweep. Measured on a
 /// 1M-token corpus with K = 1000 (`themata bench`'s convergence case), the
@@ -105,10 +105,9 @@ enum AlphaDraw {
 
 /// The per-sweep constants of the Metropolis-Hastings kernel.
 pub struct MetropolisKernel<'a> {
-    alpha: &'a [f64],
+    priors: &'a Priors,
     alpha_sum: f64,
     alpha_draw: AlphaDraw,
-    beta: &'a BetaPrior,
     beta_sum: f64,
     n_topics: usize,
 }
@@ -125,10 +124,9 @@ impl<'a> MetropolisKernel<'a> {
             )
         };
         MetropolisKernel {
-            alpha: &priors.alpha,
+            priors,
             alpha_sum: priors.alpha_sum(),
             alpha_draw,
-            beta: &priors.beta,
             beta_sum: priors.beta_sum(n_words),
             n_topics,
         }
@@ -174,7 +172,7 @@ impl<'a> MetropolisKernel<'a> {
         }
         let n_positions = positions.len();
         let beta_sum = self.beta_sum;
-        let alpha = self.alpha;
+        let alpha = self.priors.alpha.as_slice();
         // The document of the token being planned, found by a second walk
         // over the shard's documents that runs PLAN_AHEAD tokens ahead.
         let mut plan_docs = shard.docs.clone();
@@ -327,7 +325,7 @@ impl<'a> MetropolisKernel<'a> {
             };
         }
         let record = records[word as usize];
-        let beta = self.beta_of(word as usize);
+        let beta = self.priors.beta_of(word as usize);
         let word_len = record.len as f64;
         let scale = word_len + self.n_topics as f64 * beta;
         let mut word_picks = [WordPick::Uniform(0); CYCLES_PER_TOKEN];
@@ -346,14 +344,6 @@ impl<'a> MetropolisKernel<'a> {
             beta,
             doc_picks,
             word_picks,
-        }
-    }
-
-    #[inline]
-    fn beta_of(&self, word_idx: usize) -> f64 {
-        match self.beta {
-            BetaPrior::Symmetric(value) => *value,
-            BetaPrior::Asymmetric(values) => values[word_idx],
         }
     }
 

@@ -53,6 +53,7 @@ impl Priors {
     }
 
     /// The prior weight of word `word_idx`.
+    #[inline]
     pub fn beta_of(&self, word_idx: usize) -> f64 {
         match &self.beta {
             BetaPrior::Symmetric(value) => *value,

@@ -67,9 +67,7 @@ impl BlockKernel {
             BlockKernel::Metropolis => 1 << 18,
         }
     }
-}
 
-impl BlockKernel {
     /// The expected cost of each word's tokens, by which word groups are
     /// balanced; both kernels' costs follow a word's token count `n_w` and
     /// its document frequency `df_w` (tokens are ordered by word within a
@@ -108,6 +106,12 @@ pub fn default_shards(n_tokens: usize, kernel: BlockKernel) -> usize {
     n_tokens
         .div_ceil(kernel.tokens_per_shard())
         .clamp(1, MAX_AUTO_SHARDS)
+}
+
+/// The constants of one sweep of the driver's kernel.
+enum Sampling<'a> {
+    Exact(ExactKernel<'a>),
+    Metropolis(MetropolisKernel<'a>),
 }
 
 /// One shard: a contiguous range of documents and of their tokens.
@@ -158,20 +162,19 @@ pub fn plan_shards(corpus: &Corpus, n_shards: usize) -> Vec<Shard> {
 /// with about equal total cost; returns the `n_groups + 1` bounds (a range
 /// may be empty when one word costs more than a group's share).
 pub fn plan_word_groups(word_costs: &[u64], n_groups: usize) -> Vec<usize> {
-    let word_tokens = word_costs;
-    let total: u64 = word_tokens.iter().sum();
+    let total: u64 = word_costs.iter().sum();
     let mut bounds = vec![0usize];
     let mut word = 0usize;
     let mut seen = 0u64;
     for group in 1..n_groups {
         let target = total * group as u64 / n_groups as u64;
-        while word < word_tokens.len() && seen < target {
-            seen += word_tokens[word];
+        while word < word_costs.len() && seen < target {
+            seen += word_costs[word];
             word += 1;
         }
         bounds.push(word);
     }
-    bounds.push(word_tokens.len());
+    bounds.push(word_costs.len());
     bounds
 }
 
@@ -425,8 +428,12 @@ impl ShardedSampler {
         let kernel = self.kernel;
         self.load(state, kernel == BlockKernel::Metropolis);
         let n_groups = self.shards.len();
-        let metropolis = MetropolisKernel::new(priors, state.n_topics, state.n_words);
-        let exact = ExactKernel::new(priors, state.n_topics, state.n_words);
+        let sampling = match kernel {
+            BlockKernel::Exact => Sampling::Exact(ExactKernel::new(priors, state.n_topics, state.n_words)),
+            BlockKernel::Metropolis => {
+                Sampling::Metropolis(MetropolisKernel::new(priors, state.n_topics, state.n_words))
+            }
+        };
         let n_threads = rayon::current_num_threads().max(1);
         while self.workspaces.len() < n_threads {
             self.workspaces.push(Mutex::new(None));
@@ -503,9 +510,9 @@ impl ShardedSampler {
                     exact: ExactScratch::default(),
                 });
                 workspace.topic_totals.copy_from_slice(context.start_totals);
-                match kernel {
-                    BlockKernel::Exact => exact.sample_block(&context, block, workspace),
-                    BlockKernel::Metropolis => metropolis.sample_block(&context, block, workspace),
+                match &sampling {
+                    Sampling::Exact(exact) => exact.sample_block(&context, block, workspace),
+                    Sampling::Metropolis(metropolis) => metropolis.sample_block(&context, block, workspace),
                 }
                 for ((change, &now), &before) in workspace
                     .totals_change
