@@ -8,11 +8,11 @@
 use criterion::{BenchmarkId, Criterion, Throughput, criterion_group, criterion_main};
 use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
-use themata::bench::{Case, corpus_of};
-use themata::sampler::{
+use themata::fitting::sampler::{
     BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, WordTopicCounts, default_shards,
     sweep_reference,
 };
+use themata::testbed::bench::{Case, corpus_of};
 
 fn sweeps(c: &mut Criterion) {
     let mut group = c.benchmark_group("sweep");

@@ -5,9 +5,9 @@
 //! parses options, wires the stages together and prints.
 //!
 //! ```
-//! use themata::corpus::Corpus;
-//! use themata::fit::{fit, FitSettings, PriorSpec};
-//! use themata::vocab::Vocabulary;
+//! use themata::ingest::corpus::Corpus;
+//! use themata::fitting::fit::{fit, FitSettings, PriorSpec};
+//! use themata::ingest::vocab::Vocabulary;
 //!
 //! let vocabulary = Vocabulary::from_parts(
 //!     vec!["tide".into(), "quay".into(), "seed".into(), "soil".into()],
@@ -26,23 +26,10 @@
 //! assert_eq!(model.n_topics(), 2);
 //! ```
 
-pub mod bench;
-pub mod coherence;
-pub mod compare;
-pub mod corpus;
-pub mod fit;
-pub mod format;
-pub mod heldout;
-pub mod memory;
+pub mod evaluate;
+pub mod fitting;
+pub mod ingest;
 pub mod model;
-pub mod priors;
-pub mod read;
 pub mod report;
-pub mod sampler;
-pub mod score;
 pub mod settings;
-pub mod sweep;
-pub mod synthetic;
-pub mod tokenize;
-pub mod uncertainty;
-pub mod vocab;
+pub mod testbed;

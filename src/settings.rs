@@ -13,10 +13,10 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 use serde::Deserialize;
 
-use crate::fit::{FitSettings, PriorSpec, SamplerChoice};
-use crate::read::{InputFormat, ReadOptions};
-use crate::tokenize::{self, TokenizerSettings};
-use crate::vocab::PruneRules;
+use crate::fitting::fit::{FitSettings, PriorSpec, SamplerChoice};
+use crate::ingest::read::{InputFormat, ReadOptions};
+use crate::ingest::tokenize::{self, TokenizerSettings};
+use crate::ingest::vocab::PruneRules;
 
 /// A value the user gave that cannot be used.
 #[derive(Debug, thiserror::Error)]

@@ -3,10 +3,10 @@
 use std::io::Write;
 use std::path::PathBuf;
 
-use themata::heldout::FoldInSettings;
-use themata::read::{self, Diagnostic};
-use themata::score::{self, EncodedDocument, Placement};
-use themata::tokenize::Tokenizer;
+use themata::evaluate::heldout::FoldInSettings;
+use themata::evaluate::score::{self, EncodedDocument, Placement};
+use themata::ingest::read::{self, Diagnostic};
+use themata::ingest::tokenize::Tokenizer;
 
 use super::fit::load_model;
 use super::show::parse_level;

@@ -4,7 +4,7 @@
 
 use std::io::{self, IsTerminal, Write};
 
-use themata::bench::{self, Case, Convergence, LargeRun, ThroughputRow};
+use themata::testbed::bench::{self, Case, Convergence, LargeRun, ThroughputRow};
 
 use super::Failure;
 

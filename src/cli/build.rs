@@ -2,7 +2,7 @@
 
 use std::path::PathBuf;
 
-use themata::corpus::{self, BuildSettings, BuildSummary, Corpus};
+use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus};
 use themata::settings::{InputOptions, TokenizerOptions, VocabularyOptions};
 
 use super::{BuildArgs, Failure};

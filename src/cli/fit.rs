@@ -4,12 +4,12 @@
 use std::ops::ControlFlow;
 use std::path::{Path, PathBuf};
 
-use themata::corpus::Corpus;
-use themata::fit::{self, FitTiming};
-use themata::format::{OUTPUT_MARKER, StagedFolder};
+use themata::evaluate::score;
+use themata::fitting::fit::{self, FitTiming};
+use themata::ingest::corpus::Corpus;
 use themata::model::Model;
+use themata::model::format::{OUTPUT_MARKER, StagedFolder};
 use themata::report::FitSummary;
-use themata::score;
 use themata::settings::{FitOptions, FitPlan};
 
 use super::progress::SweepProgress;
@@ -100,7 +100,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         timing.sampling_seconds,
         timing.tokens_per_second(),
     )
-    .with_peak_rss(themata::memory::peak_rss_bytes());
+    .with_peak_rss(themata::testbed::memory::peak_rss_bytes());
     if let Some(held) = &heldout {
         summary = summary.with_heldout(score_holdout(&model, held, threads)?);
     }

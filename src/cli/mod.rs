@@ -14,9 +14,9 @@ mod sweep;
 use std::path::PathBuf;
 
 use clap::{Parser, Subcommand};
-use themata::corpus::CorpusError;
-use themata::fit::FitError;
-use themata::format::FormatError;
+use themata::fitting::fit::FitError;
+use themata::ingest::corpus::CorpusError;
+use themata::model::format::FormatError;
 use themata::settings::{
     FitOptions, InputOptions, OutputOptions, SettingsError, TokenizerOptions, VocabularyOptions,
 };
@@ -66,7 +66,7 @@ impl From<FitError> for Failure {
 impl From<CorpusError> for Failure {
     fn from(err: CorpusError) -> Failure {
         match &err {
-            CorpusError::Read(themata::read::ReadError::Io { .. }) => Failure::system(err),
+            CorpusError::Read(themata::ingest::read::ReadError::Io { .. }) => Failure::system(err),
             _ => Failure::bad_input(err),
         }
     }
@@ -118,8 +118,8 @@ pub enum Command {
 #[derive(clap::Args, Debug, Clone)]
 pub struct RecordOptions {
     /// Input format: auto decides by file extension (.txt/.md, .jsonl/.ndjson, .csv)
-    #[arg(long, value_enum, default_value_t = themata::read::InputFormat::Auto)]
-    pub input_format: themata::read::InputFormat,
+    #[arg(long, value_enum, default_value_t = themata::ingest::read::InputFormat::Auto)]
+    pub input_format: themata::ingest::read::InputFormat,
     /// JSON Lines field or CSV column holding the text
     #[arg(long, value_name = "NAME", default_value = "text")]
     pub text_field: String,
@@ -130,7 +130,7 @@ pub struct RecordOptions {
 
 impl RecordOptions {
     /// The same checks as the build options, through the one definition there.
-    pub fn resolve(&self) -> Result<themata::read::ReadOptions, SettingsError> {
+    pub fn resolve(&self) -> Result<themata::ingest::read::ReadOptions, SettingsError> {
         InputOptions {
             format: Some(self.input_format),
             text_field: Some(self.text_field.clone()),

@@ -4,7 +4,7 @@
 use std::io::IsTerminal;
 
 use indicatif::{ProgressBar, ProgressStyle};
-use themata::fit::FitEvent;
+use themata::fitting::fit::FitEvent;
 
 /// Shows sweep progress for a fit.
 pub struct SweepProgress {

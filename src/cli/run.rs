@@ -1,7 +1,7 @@
 //! `themata run`: build, fit and report as a config file describes, into one
 //! output folder that is replaced whole only when everything succeeded.
 
-use themata::format::StagedFolder;
+use themata::model::format::StagedFolder;
 use themata::report::{self, FitSummary, ListingFormat, WordLimit};
 use themata::settings::RunConfig;
 
@@ -37,8 +37,8 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     let staged = StagedFolder::begin(&out_dir)?;
 
     let (corpus, build_summary) = build_corpus(&inputs, &input, &tokenizer, &vocabulary, args.quiet)?;
-    let corpus_bytes = themata::format::encode(
-        themata::format::FileKind::Corpus,
+    let corpus_bytes = themata::model::format::encode(
+        themata::model::format::FileKind::Corpus,
         &corpus,
         &staged.path("corpus.bin"),
     )?;
@@ -50,7 +50,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         timing.sampling_seconds,
         timing.tokens_per_second(),
     )
-    .with_peak_rss(themata::memory::peak_rss_bytes());
+    .with_peak_rss(themata::testbed::memory::peak_rss_bytes());
     if let Some(score) = heldout {
         summary = summary.with_heldout(score);
     }

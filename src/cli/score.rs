@@ -5,15 +5,15 @@ use std::io::Read;
 use std::path::{Path, PathBuf};
 
 use serde::Serialize;
-use themata::coherence::CoherenceSettings;
-use themata::corpus::Corpus;
-use themata::format::FileKind;
-use themata::heldout::FoldInSettings;
+use themata::evaluate::coherence::CoherenceSettings;
+use themata::evaluate::heldout::FoldInSettings;
+use themata::evaluate::score::{self, CoherenceReport, EncodedDocument, Method, ScoreSettings};
+use themata::ingest::corpus::Corpus;
+use themata::ingest::read::{self, Diagnostic};
+use themata::ingest::tokenize::Tokenizer;
 use themata::model::Model;
-use themata::read::{self, Diagnostic};
+use themata::model::format::FileKind;
 use themata::report::ListingFormat;
-use themata::score::{self, CoherenceReport, EncodedDocument, Method, ScoreSettings};
-use themata::tokenize::Tokenizer;
 
 use super::fit::load_model;
 use super::{Failure, RecordOptions};

@@ -2,11 +2,11 @@
 
 use std::path::PathBuf;
 
-use themata::corpus::Corpus;
-use themata::fit::PriorSpec;
-use themata::format::{OUTPUT_MARKER, StagedFolder};
+use themata::evaluate::k_search::{self, KSearchSettings};
+use themata::fitting::fit::PriorSpec;
+use themata::ingest::corpus::Corpus;
+use themata::model::format::{OUTPUT_MARKER, StagedFolder};
 use themata::settings::FitOptions;
-use themata::sweep::{self, SweepSettings};
 
 use super::Failure;
 
@@ -69,7 +69,7 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
     }
     .resolve()?;
     let corpus = Corpus::load(&args.corpus)?;
-    let settings = SweepSettings {
+    let settings = KSearchSettings {
         topics,
         seeds: (1..=args.seeds).collect(),
         holdout: args.holdout,
@@ -87,12 +87,12 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
         plan.threads
     );
     let report = pool
-        .install(|| sweep::run_sweep(&corpus, &settings))
+        .install(|| k_search::run_k_search(&corpus, &settings))
         .map_err(|err| match err {
-            sweep::SweepError::Scoring { .. } => Failure::system(err),
+            k_search::KSearchError::Scoring { .. } => Failure::system(err),
             _ => Failure::bad_input(err),
         })?;
-    let tsv = sweep::to_tsv(&report);
+    let tsv = k_search::to_tsv(&report);
     staged.write("sweep.tsv", tsv.as_bytes())?;
     let json = serde_json::to_vec_pretty(&report).map_err(Failure::system)?;
     staged.write(OUTPUT_MARKER, &json)?;

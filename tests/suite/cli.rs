@@ -542,7 +542,7 @@ fn killed_run_resumes_to_the_same_bytes() {
     // (assignments, priors, traces, samples, RNG), so finishing from it must
     // give the model an uninterrupted run gives.
     let scratch = Scratch::new();
-    let data = themata::synthetic::bars(1500, 60, 1.0, 9);
+    let data = themata::testbed::synthetic::bars(1500, 60, 1.0, 9);
     data.corpus.save(&scratch.path("bars.bin")).unwrap();
     let args = [
         "--topics",

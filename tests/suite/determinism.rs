@@ -1,8 +1,8 @@
 //! Same inputs and seed give the same model, bit for bit, whatever the
 //! number of threads.
 
-use themata::fit::{FitSettings, PriorSpec, SamplerChoice, fit};
-use themata::synthetic;
+use themata::fitting::fit::{FitSettings, PriorSpec, SamplerChoice, fit};
+use themata::testbed::synthetic;
 
 fn encoded_model(seed: u64, threads: usize, sampler: SamplerChoice) -> Vec<u8> {
     let data = synthetic::bars(200, 50, 1.0, 4);

@@ -1,9 +1,9 @@
 //! Corpus and model files: round trips, and damaged files refused cleanly.
 
-use themata::corpus::Corpus;
-use themata::fit::{FitSettings, PriorSpec, fit};
+use themata::fitting::fit::{FitSettings, PriorSpec, fit};
+use themata::ingest::corpus::Corpus;
 use themata::model::Model;
-use themata::synthetic;
+use themata::testbed::synthetic;
 
 use crate::util::Scratch;
 
@@ -91,7 +91,10 @@ fn version_one_model_files_still_load() {
     assert_eq!(model.iterations_done, 30);
     assert_eq!(model.samples.len(), 2);
     // An old model continues with the sampler that wrote it.
-    assert_eq!(model.schedule.sampler, themata::fit::SamplerKind::Reference);
+    assert_eq!(
+        model.schedule.sampler,
+        themata::fitting::fit::SamplerKind::Reference
+    );
     let teapot = model.corpus.vocabulary.id("teapot").unwrap() as usize;
     let pedal = model.corpus.vocabulary.id("pedal").unwrap() as usize;
     assert!((model.topic_word_row(0)[teapot] - 0.3289401139173447).abs() < 1e-12);
@@ -115,7 +118,10 @@ fn version_two_model_files_load_and_continue() {
     // are what `show --format tsv` printed then.
     let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/model-v2.bin");
     let model = Model::load(&path).unwrap();
-    assert_eq!(model.schedule.sampler, themata::fit::SamplerKind::Metropolis);
+    assert_eq!(
+        model.schedule.sampler,
+        themata::fitting::fit::SamplerKind::Metropolis
+    );
     assert_eq!(model.schedule.shards, 2);
     assert_eq!(model.iterations_done, 30);
     let kettle = model.corpus.vocabulary.id("kettle").unwrap() as usize;
@@ -125,8 +131,8 @@ fn version_two_model_files_load_and_continue() {
     // Continuing it runs the stored sampler, the same way every time.
     let continued = || {
         let mut model = Model::load(&path).unwrap();
-        themata::fit::extend(&mut model, 8).unwrap();
-        themata::fit::run_to_target(&mut model, &mut |_| {}, &mut |_| {
+        themata::fitting::fit::extend(&mut model, 8).unwrap();
+        themata::fitting::fit::run_to_target(&mut model, &mut |_| {}, &mut |_| {
             std::ops::ControlFlow::Continue(())
         })
         .unwrap();

@@ -7,10 +7,12 @@
 
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
-use themata::corpus::Corpus;
-use themata::sampler::{BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, sweep_reference};
-use themata::synthetic::{categorical, dirichlet};
-use themata::vocab::Vocabulary;
+use themata::fitting::sampler::{
+    BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, sweep_reference,
+};
+use themata::ingest::corpus::Corpus;
+use themata::ingest::vocab::Vocabulary;
+use themata::testbed::synthetic::{categorical, dirichlet};
 
 const N_TOPICS: usize = 3;
 const N_WORDS: usize = 4;

@@ -3,10 +3,10 @@
 
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
-use themata::compare::match_topics;
-use themata::fit::{FitSettings, PriorSpec, fit};
-use themata::score::{self, ScoreSettings};
-use themata::synthetic;
+use themata::evaluate::compare::match_topics;
+use themata::evaluate::score::{self, ScoreSettings};
+use themata::fitting::fit::{FitSettings, PriorSpec, fit};
+use themata::testbed::synthetic;
 
 /// Known asymmetric alpha over five well-separated topics.
 const TRUE_ALPHA: [f64; 5] = [0.05, 0.1, 0.2, 0.4, 0.8];

@@ -5,14 +5,14 @@
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 use statrs::function::gamma::ln_gamma;
-use themata::corpus::Corpus;
-use themata::fit::{FitSettings, SamplerChoice, fit};
-use themata::sampler::{
+use themata::evaluate::score::{self, ScoreSettings};
+use themata::fitting::fit::{FitSettings, SamplerChoice, fit};
+use themata::fitting::sampler::{
     self, BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, sweep_reference,
 };
-use themata::score::{self, ScoreSettings};
-use themata::synthetic;
-use themata::vocab::Vocabulary;
+use themata::ingest::corpus::Corpus;
+use themata::ingest::vocab::Vocabulary;
+use themata::testbed::synthetic;
 
 /// Documents of the enumerated corpus: five tokens over three words.
 fn tiny_corpus() -> Corpus {

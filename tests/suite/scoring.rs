@@ -3,12 +3,12 @@
 
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
-use themata::compare::jensen_shannon_distance;
-use themata::fit::{FitSettings, PriorSpec, fit};
-use themata::heldout::FoldInSettings;
-use themata::score::{self, EncodedDocument, Method, ScoreSettings};
-use themata::sweep::{SweepSettings, run_sweep};
-use themata::synthetic;
+use themata::evaluate::compare::jensen_shannon_distance;
+use themata::evaluate::heldout::FoldInSettings;
+use themata::evaluate::k_search::{KSearchSettings, run_k_search};
+use themata::evaluate::score::{self, EncodedDocument, Method, ScoreSettings};
+use themata::fitting::fit::{FitSettings, PriorSpec, fit};
+use themata::testbed::synthetic;
 
 fn sparse_topics(n_topics: usize, n_words: usize, seed: u64) -> Vec<Vec<f64>> {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
@@ -112,7 +112,7 @@ fn estimators_agree_on_a_fitted_model() {
 fn sweep_recommends_the_generating_number_of_topics() {
     // Source: common practice — held-out perplexity falls steeply until K
     // reaches the generating number of topics and then flattens. Data from 8
-    // sparse topics; candidates 4, 8, 16. Rule (src/sweep.rs): the smallest K
+    // sparse topics; candidates 4, 8, 16. Rule (src/evaluate/k_search.rs): the smallest K
     // within 2% of the lowest mean held-out perplexity. The margin is safe:
     // measured, K = 4 merges topics and is about 60% worse than K = 8, and
     // K = 16 is about 2% worse than K = 8 (spare topics split true ones), so
@@ -125,7 +125,7 @@ fn sweep_recommends_the_generating_number_of_topics() {
         names(400),
         11,
     );
-    let settings = SweepSettings {
+    let settings = KSearchSettings {
         topics: vec![4, 8, 16],
         seeds: vec![1, 2],
         holdout: 0.2,
@@ -136,7 +136,7 @@ fn sweep_recommends_the_generating_number_of_topics() {
             ..FitSettings::fixed(8, 300, 0.1, 0.01, 1)
         },
     };
-    let report = run_sweep(&data.corpus, &settings).unwrap();
+    let report = run_k_search(&data.corpus, &settings).unwrap();
     for row in &report.rows {
         eprintln!(
             "K={} perplexity {:.2} (sd {:.2}) npmi {:.3} stability {:?}",

@@ -1,8 +1,8 @@
 //! Published worked examples: the sampler must recover known topics.
 
-use themata::compare::match_topics;
-use themata::fit::{FitSettings, fit};
-use themata::synthetic;
+use themata::evaluate::compare::match_topics;
+use themata::fitting::fit::{FitSettings, fit};
+use themata::testbed::synthetic;
 
 fn settings(n_topics: usize, iterations: u64, alpha: f64, beta: f64, seed: u64) -> FitSettings {
     FitSettings::fixed(n_topics, iterations, alpha, beta, seed)

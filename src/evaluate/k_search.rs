@@ -11,15 +11,15 @@
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::coherence::CoherenceSettings;
-use crate::compare::match_topics;
-use crate::corpus::Corpus;
-use crate::fit::{self, FitError, FitSettings};
-use crate::score::{self, ScoreSettings};
+use crate::evaluate::coherence::CoherenceSettings;
+use crate::evaluate::compare::match_topics;
+use crate::evaluate::score::{self, ScoreSettings};
+use crate::fitting::fit::{self, FitError, FitSettings};
+use crate::ingest::corpus::Corpus;
 
 /// Why a sweep could not run.
 #[derive(Debug, thiserror::Error)]
-pub enum SweepError {
+pub enum KSearchError {
     #[error(transparent)]
     Fit(#[from] FitError),
     #[error("the held-out fraction keeps no document out; raise --holdout")]
@@ -33,7 +33,7 @@ pub const PERPLEXITY_TOLERANCE: f64 = 0.02;
 
 /// What to sweep.
 #[derive(Clone, Debug)]
-pub struct SweepSettings {
+pub struct KSearchSettings {
     /// Candidate numbers of topics.
     pub topics: Vec<usize>,
     /// Seeds fitted per candidate.
@@ -46,7 +46,7 @@ pub struct SweepSettings {
 
 /// One candidate K, averaged over seeds.
 #[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct SweepRow {
+pub struct KSearchRow {
     pub topics: usize,
     pub seeds: usize,
     /// Mean document-completion perplexity of the held-out documents.
@@ -64,8 +64,8 @@ pub struct SweepRow {
 
 /// The sweep's table and recommendation.
 #[derive(Clone, Debug, PartialEq, Serialize)]
-pub struct SweepReport {
-    pub rows: Vec<SweepRow>,
+pub struct KSearchReport {
+    pub rows: Vec<KSearchRow>,
     pub recommended_topics: usize,
     pub rule: String,
     pub training_documents: usize,
@@ -82,11 +82,11 @@ struct RunResult {
 }
 
 /// Fits every (K, seed) pair, spread over the current thread pool.
-pub fn run_sweep(corpus: &Corpus, settings: &SweepSettings) -> Result<SweepReport, SweepError> {
+pub fn run_k_search(corpus: &Corpus, settings: &KSearchSettings) -> Result<KSearchReport, KSearchError> {
     let mask = score::holdout_mask(corpus, settings.holdout, 0x5eed);
     let (train, held) = score::split_corpus(corpus, &mask);
     if held.n_docs() == 0 {
-        return Err(SweepError::NoHeldOut);
+        return Err(KSearchError::NoHeldOut);
     }
     let held_docs = score::corpus_documents(&held);
     for &topics in &settings.topics {
@@ -120,7 +120,7 @@ pub fn run_sweep(corpus: &Corpus, settings: &SweepSettings) -> Result<SweepRepor
                     ..ScoreSettings::default()
                 },
             )
-            .map_err(|(document, err)| SweepError::Scoring {
+            .map_err(|(document, err)| KSearchError::Scoring {
                 document,
                 detail: err.to_string(),
             })?;
@@ -129,7 +129,7 @@ pub fn run_sweep(corpus: &Corpus, settings: &SweepSettings) -> Result<SweepRepor
                 .collect();
             let coherence =
                 score::coherence_report(&model, &documents, "training", &CoherenceSettings::default(), 10)
-                    .map_err(|err| SweepError::Scoring {
+                    .map_err(|err| KSearchError::Scoring {
                         document: "(coherence of the training documents)".to_string(),
                         detail: err.to_string(),
                     })?;
@@ -141,8 +141,8 @@ pub fn run_sweep(corpus: &Corpus, settings: &SweepSettings) -> Result<SweepRepor
                 phi: model.topic_word_matrix(),
             })
         })
-        .collect::<Result<_, SweepError>>()?;
-    let rows: Vec<SweepRow> = settings
+        .collect::<Result<_, KSearchError>>()?;
+    let rows: Vec<KSearchRow> = settings
         .topics
         .iter()
         .map(|&topics| summarise(topics, results.iter().filter(|r| r.topics == topics).collect()))
@@ -157,7 +157,7 @@ pub fn run_sweep(corpus: &Corpus, settings: &SweepSettings) -> Result<SweepRepor
         .map(|r| r.topics)
         .min()
         .unwrap_or(settings.topics[0]);
-    Ok(SweepReport {
+    Ok(KSearchReport {
         rows,
         recommended_topics,
         rule: format!(
@@ -169,7 +169,7 @@ pub fn run_sweep(corpus: &Corpus, settings: &SweepSettings) -> Result<SweepRepor
     })
 }
 
-fn summarise(topics: usize, runs: Vec<&RunResult>) -> SweepRow {
+fn summarise(topics: usize, runs: Vec<&RunResult>) -> KSearchRow {
     let n = runs.len() as f64;
     let mean = |f: &dyn Fn(&RunResult) -> f64| runs.iter().map(|r| f(r)).sum::<f64>() / n;
     let perplexity = mean(&|r| r.perplexity);
@@ -190,7 +190,7 @@ fn summarise(topics: usize, runs: Vec<&RunResult>) -> SweepRow {
             distances.push(matched.iter().map(|m| m.distance).sum::<f64>() / matched.len() as f64);
         }
     }
-    SweepRow {
+    KSearchRow {
         topics,
         seeds: runs.len(),
         heldout_perplexity: perplexity,
@@ -202,7 +202,7 @@ fn summarise(topics: usize, runs: Vec<&RunResult>) -> SweepRow {
 }
 
 /// The report as TSV: one line per K.
-pub fn to_tsv(report: &SweepReport) -> String {
+pub fn to_tsv(report: &KSearchReport) -> String {
     let mut out = String::from(
         "topics\tseeds\theldout_perplexity\tperplexity_sd\tnpmi\tumass\tstability\trecommended\n",
     );

@@ -16,11 +16,11 @@ use std::time::Instant;
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
-use crate::corpus::Corpus;
-use crate::fit::{SamplerChoice, SamplerKind};
-use crate::memory;
-use crate::sampler::{self, BetaPrior, BlockKernel, CountState, Priors, ShardedSampler};
-use crate::synthetic::{self, UrnCorpusSettings};
+use crate::fitting::fit::{SamplerChoice, SamplerKind};
+use crate::fitting::sampler::{self, BetaPrior, BlockKernel, CountState, Priors, ShardedSampler};
+use crate::ingest::corpus::Corpus;
+use crate::testbed::memory;
+use crate::testbed::synthetic::{self, UrnCorpusSettings};
 
 /// One corpus shape to measure.
 #[derive(Clone, Debug, PartialEq)]

@@ -37,7 +37,7 @@ use super::counts::{RowLayout, RowsMut};
 use super::exact::{ExactKernel, ExactScratch};
 use super::metropolis::MetropolisKernel;
 use super::{CountState, Priors, Topic};
-use crate::corpus::Corpus;
+use crate::ingest::corpus::Corpus;
 
 /// The kernel a [`ShardedSampler`] runs on each block.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -613,7 +613,7 @@ fn split_by<T>(items: &mut [T], ends: impl Iterator<Item = usize>) -> Vec<&mut [
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::vocab::Vocabulary;
+    use crate::ingest::vocab::Vocabulary;
 
     fn corpus(doc_lens: &[usize]) -> Corpus {
         let vocabulary = Vocabulary::from_parts(vec!["a".into(), "b".into()], vec![1, 1], vec![1, 1]);

@@ -6,9 +6,9 @@ use std::io::{self, Write};
 
 use serde::Serialize;
 
+use crate::evaluate::uncertainty::UncertaintyError;
+use crate::fitting::sampler::BetaPrior;
 use crate::model::Model;
-use crate::sampler::BetaPrior;
-use crate::uncertainty::UncertaintyError;
 
 /// How a listing is printed.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum, serde::Deserialize)]
@@ -284,11 +284,11 @@ pub struct FitSummary {
     pub samples: u64,
     pub lag: u64,
     pub sample_iterations: Vec<u64>,
-    pub convergence: crate::fit::Convergence,
+    pub convergence: crate::fitting::fit::Convergence,
     /// Held-out perplexity of the documents `--holdout` kept out (null without).
     pub heldout_perplexity: Option<f64>,
     /// The held-out scoring behind it.
-    pub heldout: Option<crate::score::HeldOutScore>,
+    pub heldout: Option<crate::evaluate::score::HeldOutScore>,
     /// Peak resident memory of the process that fitted the model, in bytes
     /// (null where the system does not tell).
     pub peak_rss_bytes: Option<u64>,
@@ -299,7 +299,7 @@ pub const SUMMARY_VERSION: u32 = 1;
 
 impl FitSummary {
     /// Records the held-out score of the documents kept out of training.
-    pub fn with_heldout(mut self, score: crate::score::HeldOutScore) -> FitSummary {
+    pub fn with_heldout(mut self, score: crate::evaluate::score::HeldOutScore) -> FitSummary {
         self.heldout_perplexity = score.heldout_perplexity;
         self.heldout = Some(score);
         self
@@ -336,7 +336,7 @@ impl FitSummary {
             samples: model.schedule.samples,
             lag: model.schedule.lag,
             sample_iterations: model.samples.iter().map(|s| s.iteration).collect(),
-            convergence: crate::fit::convergence(model),
+            convergence: crate::fitting::fit::convergence(model),
             heldout_perplexity: None,
             heldout: None,
             peak_rss_bytes: None,
@@ -379,7 +379,7 @@ pub fn label_agreement(documents: &[DocumentListing]) -> Option<LabelAgreement> 
         })
         .unzip();
     Some(LabelAgreement {
-        nmi: crate::compare::normalized_mutual_information(&labels, &topics),
+        nmi: crate::evaluate::compare::normalized_mutual_information(&labels, &topics),
         documents: labels.len(),
         labels: names.len(),
     })

@@ -13,7 +13,7 @@
 use rand::RngExt;
 
 use super::{CountState, Priors, Topic};
-use crate::corpus::Corpus;
+use crate::ingest::corpus::Corpus;
 
 /// One full sweep over every token of `corpus`, in document order.
 pub fn sweep_reference(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut impl rand::Rng) {

@@ -8,8 +8,8 @@ use rand_distr::weighted::WeightedAliasIndex;
 use rand_distr::{Distribution, Gamma};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
-use crate::corpus::Corpus;
-use crate::vocab::Vocabulary;
+use crate::ingest::corpus::Corpus;
+use crate::ingest::vocab::Vocabulary;
 
 /// A generated corpus with the truth behind it.
 #[derive(Clone, Debug)]
@@ -170,7 +170,7 @@ pub struct UrnCorpusSettings {
 /// token, and never holds a K x V matrix, so it scales to the sizes
 /// `themata bench` needs. Word ids are Zipf ranks (0 is the most frequent).
 /// Returns the corpus and the topic each token was drawn from.
-pub fn urn_corpus(settings: &UrnCorpusSettings) -> (Corpus, Vec<crate::sampler::Topic>) {
+pub fn urn_corpus(settings: &UrnCorpusSettings) -> (Corpus, Vec<crate::fitting::sampler::Topic>) {
     let UrnCorpusSettings {
         n_tokens,
         n_words,
@@ -183,9 +183,9 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> (Corpus, Vec<crate::sampler::
     } = settings.clone();
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     assert!(
-        n_topics <= crate::sampler::MAX_TOPICS,
+        n_topics <= crate::fitting::sampler::MAX_TOPICS,
         "at most {} topics",
-        crate::sampler::MAX_TOPICS
+        crate::fitting::sampler::MAX_TOPICS
     );
     let zipf: Vec<f64> = (1..=n_words)
         .map(|rank| (rank as f64).powf(-zipf_exponent))
@@ -225,10 +225,14 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> (Corpus, Vec<crate::sampler::
         }
         counter.add_document(&tokens[doc_start..]);
         offsets.push(tokens.len() as u64);
-        drawn_topics.extend(doc_topics.iter().map(|&topic| topic as crate::sampler::Topic));
+        drawn_topics.extend(
+            doc_topics
+                .iter()
+                .map(|&topic| topic as crate::fitting::sampler::Topic),
+        );
     }
     let documents = (0..offsets.len() - 1)
-        .map(|idx| crate::corpus::DocumentInfo {
+        .map(|idx| crate::ingest::corpus::DocumentInfo {
             id: format!("doc-{idx}"),
             label: None,
             source: String::new(),
@@ -236,7 +240,7 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> (Corpus, Vec<crate::sampler::
         .collect();
     let names = (0..n_words).map(|w| format!("w{w}")).collect();
     let corpus = Corpus {
-        tokenizer: crate::tokenize::TokenizerSettings::default(),
+        tokenizer: crate::ingest::tokenize::TokenizerSettings::default(),
         vocabulary: counter.into_vocabulary(names),
         documents,
         offsets,
@@ -330,7 +334,7 @@ mod tests {
     use super::*;
     use statrs::function::gamma::ln_gamma;
 
-    fn small_urn() -> (Corpus, Vec<crate::sampler::Topic>, UrnCorpusSettings) {
+    fn small_urn() -> (Corpus, Vec<crate::fitting::sampler::Topic>, UrnCorpusSettings) {
         let settings = UrnCorpusSettings {
             n_tokens: 200_000,
             n_words: 1000,

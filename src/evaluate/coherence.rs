@@ -739,7 +739,7 @@ fn in_topic(topic: usize) -> impl Fn(CoherenceError) -> CoherenceError {
 /// scheme (two or three passes).
 ///
 /// ```
-/// use themata::coherence::{CoherenceSettings, score_topics};
+/// use themata::evaluate::coherence::{CoherenceSettings, score_topics};
 ///
 /// let documents: Vec<Vec<u32>> = vec![vec![0, 1], vec![0, 1, 2], vec![0], vec![2]];
 /// let topics = vec![vec![0, 1, 2]];

@@ -26,7 +26,7 @@ use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 use statrs::function::gamma::ln_gamma;
 
-use crate::corpus::Corpus;
+use crate::ingest::corpus::Corpus;
 
 /// The topic-word prior: one value for every word, or one per word.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -242,7 +242,7 @@ pub fn log_likelihood(state: &CountState, corpus: &Corpus, priors: &Priors) -> L
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::vocab::Vocabulary;
+    use crate::ingest::vocab::Vocabulary;
 
     /// The fixture of METHODS.md section 8: K=2, V=3, alpha=(0.3,0.7),
     /// beta=0.1, documents [0,0,1] and [2,2,1], z = [0,0,1] and [1,1,0].

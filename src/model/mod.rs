@@ -7,16 +7,18 @@
 //! **Invariant:** the in-memory [`Model`] and the on-disk `ModelFile` are
 //! separate types; sampler internals are not serialized directly.
 
+pub mod format;
+
 use std::path::Path;
 
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
-use crate::corpus::Corpus;
-use crate::fit::{SamplerKind, Schedule};
-use crate::format::{self, FileKind, FormatError};
-use crate::sampler::{BetaPrior, CountState, MAX_TOPICS, Priors, Topic};
-use crate::uncertainty::{self, Interval, UncertaintyError};
+use crate::evaluate::uncertainty::{self, Interval, UncertaintyError};
+use crate::fitting::fit::{SamplerKind, Schedule};
+use crate::fitting::sampler::{BetaPrior, CountState, MAX_TOPICS, Priors, Topic};
+use crate::ingest::corpus::Corpus;
+use format::{FileKind, FormatError};
 
 /// Sparse rows of counts: for each row, `(column, count)` pairs with count > 0,
 /// columns increasing.

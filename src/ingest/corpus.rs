@@ -8,10 +8,10 @@ use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
-use crate::format::{self, FileKind, FormatError};
-use crate::read::{self, Diagnostic, DiagnosticKind, Origin, ReadError, ReadOptions};
-use crate::tokenize::{TokenizeError, Tokenizer, TokenizerSettings};
-use crate::vocab::{PruneReport, PruneRules, VocabBuilder, Vocabulary};
+use crate::ingest::read::{self, Diagnostic, DiagnosticKind, Origin, ReadError, ReadOptions};
+use crate::ingest::tokenize::{TokenizeError, Tokenizer, TokenizerSettings};
+use crate::ingest::vocab::{PruneReport, PruneRules, VocabBuilder, Vocabulary};
+use crate::model::format::{self, FileKind, FormatError};
 
 /// What is known of one document besides its tokens.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]

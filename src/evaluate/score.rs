@@ -11,11 +11,11 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::corpus::Corpus;
-use crate::heldout::{self, FoldInSettings, HeldOutError};
+use crate::evaluate::heldout::{self, FoldInSettings, HeldOutError};
+use crate::ingest::corpus::Corpus;
+use crate::ingest::tokenize::Tokenizer;
+use crate::ingest::vocab::Vocabulary;
 use crate::model::Model;
-use crate::tokenize::Tokenizer;
-use crate::vocab::Vocabulary;
 
 /// How held-out documents are scored.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, clap::ValueEnum, serde::Deserialize)]
@@ -234,8 +234,8 @@ pub fn place(
             .iter()
             .map(|counts| (f64::from(counts[topic_idx]) + alpha_k, n + a0))
             .collect();
-        let interval =
-            crate::uncertainty::mixture_share_interval(&components, level).map_err(|err| err.to_string())?;
+        let interval = crate::evaluate::uncertainty::mixture_share_interval(&components, level)
+            .map_err(|err| err.to_string())?;
         low.push(interval.low);
         high.push(interval.high);
     }
@@ -351,13 +351,13 @@ pub fn coherence_report<D: AsRef<[u32]> + Sync>(
     model: &Model,
     reference: &[D],
     reference_name: &str,
-    settings: &crate::coherence::CoherenceSettings,
+    settings: &crate::evaluate::coherence::CoherenceSettings,
     top_n: usize,
-) -> Result<CoherenceReport, crate::coherence::CoherenceError> {
+) -> Result<CoherenceReport, crate::evaluate::coherence::CoherenceError> {
     let top = top_word_ids(model, top_n);
-    let scores = crate::coherence::score_topics(&top, reference, settings)?;
-    let means =
-        crate::coherence::mean_coherence(&scores).ok_or(crate::coherence::CoherenceError::ZeroTopWords)?;
+    let scores = crate::evaluate::coherence::score_topics(&top, reference, settings)?;
+    let means = crate::evaluate::coherence::mean_coherence(&scores)
+        .ok_or(crate::evaluate::coherence::CoherenceError::ZeroTopWords)?;
     let phi = model.topic_word_matrix();
     let theta: Vec<Vec<f64>> = (0..model.corpus.n_docs())
         .map(|d| model.doc_topic_shares(d))
@@ -370,8 +370,13 @@ pub fn coherence_report<D: AsRef<[u32]> + Sync>(
     for &word in &model.corpus.tokens {
         corpus_freq[word as usize] += 1.0;
     }
-    let diagnostics =
-        crate::coherence::topic_diagnostics(&phi, &model.state.topic_totals, &theta, &corpus_freq, top_n)?;
+    let diagnostics = crate::evaluate::coherence::topic_diagnostics(
+        &phi,
+        &model.state.topic_totals,
+        &theta,
+        &corpus_freq,
+        top_n,
+    )?;
     let per_topic = scores
         .iter()
         .zip(&diagnostics)

@@ -12,12 +12,12 @@ use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
-use crate::corpus::Corpus;
-use crate::model::{Model, Sample};
-use crate::priors::{self, CountHistogram, LearnSettings};
-use crate::sampler::{
+use crate::fitting::priors::{self, CountHistogram, LearnSettings};
+use crate::fitting::sampler::{
     self, BetaPrior, BlockKernel, CountState, MAX_TOKENS, MAX_TOPICS, Priors, ShardedSampler,
 };
+use crate::ingest::corpus::Corpus;
+use crate::model::{Model, Sample};
 
 /// A prior given by the user: one value for all, one value per entry, or
 /// learned from the data.
@@ -249,7 +249,7 @@ pub enum FitError {
     #[error("the corpus has {tokens} tokens, more than the {max} a model can hold; split it")]
     CorpusTooLarge { tokens: usize, max: usize },
     #[error("learning the priors failed: {0}")]
-    Learning(#[from] crate::priors::PriorError),
+    Learning(#[from] crate::fitting::priors::PriorError),
 }
 
 /// What the caller is told while fitting.

@@ -1,0 +1,8 @@
+//! Support for benchmarks and tests: corpora drawn from the LDA generative
+//! process with the truth kept ([`synthetic`]), the process's resident
+//! memory ([`memory`]), and the measurements behind `themata bench`
+//! ([`bench`]).
+
+pub mod bench;
+pub mod memory;
+pub mod synthetic;
