@@ -62,7 +62,7 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     }
     let model = load_model(&args.dir)?;
     let tokenizer = Tokenizer::new(&model.corpus.tokenizer).map_err(Failure::bad_input)?;
-    let phi = score::phi_by_word(&model);
+    let weights = score::TopicWeights::of(&model);
     let fold_in = FoldInSettings {
         samples: args.samples,
         ..FoldInSettings::default()
@@ -79,20 +79,19 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
     let mut flush = |batch: &mut Vec<EncodedDocument>, totals: &mut Totals| -> Result<(), Failure> {
         let first = totals.documents;
-        let placed: Vec<Result<Placement, String>> = {
+        let placed: Vec<Result<Placement, score::ScoreError>> = {
             use rayon::prelude::*;
             batch
                 .par_iter()
                 .enumerate()
                 .map(|(offset, doc)| {
                     let mut rng = score::document_rng(args.seed, first + offset);
-                    score::place(&model, &phi, doc, &fold_in, args.interval, &mut rng)
+                    score::place(&model, &weights, doc, &fold_in, args.interval, &mut rng)
                 })
                 .collect()
         };
-        for (doc, placement) in batch.iter().zip(placed) {
-            let placement =
-                placement.map_err(|err| Failure::system(anyhow::anyhow!("document `{}`: {err}", doc.id)))?;
+        for placement in placed {
+            let placement = placement.map_err(Failure::system)?;
             totals.add(&placement);
             write_placement(&mut out, &placement, args.format).map_err(Failure::system)?;
             if placement.no_known_words {

@@ -216,7 +216,7 @@ fn score_holdout(model: &Model, held: &Corpus, threads: usize) -> Result<score::
         ..score::ScoreSettings::default()
     };
     pool.install(|| score::score_heldout(model, &score::corpus_documents(held), &settings))
-        .map_err(|(doc, err)| Failure::system(anyhow::anyhow!("scoring held-out document `{doc}`: {err}")))
+        .map_err(Failure::system)
 }
 
 /// Fits a fresh model with a progress bar on a worker pool (used by `run`),

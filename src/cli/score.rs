@@ -95,8 +95,7 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
             fold_in: FoldInSettings::default(),
             seed: args.seed,
         };
-        let scored = score::score_heldout(&model, &documents, &settings)
-            .map_err(|(doc, err)| Failure::system(anyhow::anyhow!("scoring document `{doc}`: {err}")))?;
+        let scored = score::score_heldout(&model, &documents, &settings).map_err(Failure::system)?;
         Some(scored)
     };
     let coherence = coherence(&model, &args)?;

@@ -13,7 +13,7 @@ use serde::Serialize;
 
 use crate::evaluate::coherence::CoherenceSettings;
 use crate::evaluate::compare::match_topics;
-use crate::evaluate::score::{self, ScoreSettings};
+use crate::evaluate::score::{self, ScoreError, ScoreSettings};
 use crate::fitting::fit::{self, FitError, FitSettings};
 use crate::ingest::corpus::Corpus;
 
@@ -24,8 +24,8 @@ pub enum KSearchError {
     Fit(#[from] FitError),
     #[error("the held-out fraction keeps no document out; raise --holdout")]
     NoHeldOut,
-    #[error("scoring held-out document `{document}` failed: {detail}")]
-    Scoring { document: String, detail: String },
+    #[error("scoring failed: {0}")]
+    Scoring(#[from] ScoreError),
 }
 
 /// Relative distance from the best perplexity within which the smallest K wins.
@@ -119,20 +119,12 @@ pub fn run_k_search(corpus: &Corpus, settings: &KSearchSettings) -> Result<KSear
                     seed,
                     ..ScoreSettings::default()
                 },
-            )
-            .map_err(|(document, err)| KSearchError::Scoring {
-                document,
-                detail: err.to_string(),
-            })?;
+            )?;
             let documents: Vec<&[u32]> = (0..model.corpus.n_docs())
                 .map(|d| model.corpus.doc_tokens(d))
                 .collect();
             let coherence =
-                score::coherence_report(&model, &documents, "training", &CoherenceSettings::default(), 10)
-                    .map_err(|err| KSearchError::Scoring {
-                        document: "(coherence of the training documents)".to_string(),
-                        detail: err.to_string(),
-                    })?;
+                score::coherence_report(&model, &documents, "training", &CoherenceSettings::default(), 10)?;
             Ok(RunResult {
                 topics,
                 perplexity: scored.heldout_perplexity.unwrap_or(f64::INFINITY),

@@ -8,6 +8,7 @@
 
 pub mod coherence;
 pub mod compare;
+pub mod diagnostics;
 pub mod heldout;
 pub mod k_search;
 pub mod score;

@@ -11,11 +11,40 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 use serde::Serialize;
 
+use crate::evaluate::coherence::{self, CoherenceError, CoherenceSettings};
+use crate::evaluate::diagnostics::{self, DiagnosticsError, TopicRows};
 use crate::evaluate::heldout::{self, FoldInSettings, HeldOutError};
+use crate::evaluate::uncertainty::{self, UncertaintyError};
 use crate::ingest::corpus::Corpus;
 use crate::ingest::tokenize::Tokenizer;
 use crate::ingest::vocab::Vocabulary;
-use crate::model::Model;
+use crate::model::{Model, TopicWordColumns};
+
+/// Why scoring or placing documents failed.
+#[derive(Debug, thiserror::Error)]
+pub enum ScoreError {
+    /// A held-out or new document could not be scored or placed.
+    #[error("document `{document}`: {source}")]
+    Document {
+        document: String,
+        #[source]
+        source: HeldOutError,
+    },
+    /// A credible interval could not be computed.
+    #[error("document `{document}`: {source}")]
+    Interval {
+        document: String,
+        #[source]
+        source: UncertaintyError,
+    },
+    #[error(transparent)]
+    Coherence(#[from] CoherenceError),
+    #[error(transparent)]
+    Diagnostics(#[from] DiagnosticsError),
+    /// Coherence needs at least one topic.
+    #[error("the model has no topics to score")]
+    NoTopics,
+}
 
 /// How held-out documents are scored.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, clap::ValueEnum, serde::Deserialize)]
@@ -73,16 +102,69 @@ pub fn encode_text(tokenizer: &Tokenizer, vocabulary: &Vocabulary, id: &str, tex
     }
 }
 
-/// The model's topic-word shares laid out word-major: `[w * K + k] = phi_kw`.
-pub fn phi_by_word(model: &Model) -> Vec<f64> {
-    let n_topics = model.n_topics();
-    let mut table = vec![0.0; model.state.n_words * n_topics];
-    for topic_idx in 0..n_topics {
-        for (word_idx, value) in model.topic_word_row(topic_idx).into_iter().enumerate() {
-            table[word_idx * n_topics + topic_idx] = value;
-        }
+/// A word-major table of phi above this many bytes is not built; the
+/// columns a document needs are computed for it instead.
+const DENSE_TABLE_LIMIT_BYTES: usize = 64 << 20;
+
+/// Where the held-out estimators read the topic-word shares from: a
+/// word-major table `[w * K + k] = phi_kw` when it is small, or, for a large
+/// model, a table of only the words of the document at hand, computed for
+/// it. Both hold the same values, bit for bit, so results do not depend on
+/// which is used.
+pub struct TopicWeights<'a> {
+    dense: Option<Vec<f64>>,
+    columns: TopicWordColumns<'a>,
+}
+
+impl<'a> TopicWeights<'a> {
+    /// The shares of `model`'s topics.
+    pub fn of(model: &'a Model) -> TopicWeights<'a> {
+        TopicWeights::with_table_limit(model, DENSE_TABLE_LIMIT_BYTES)
     }
-    table
+
+    /// [`TopicWeights::of`] with the largest dense table given.
+    fn with_table_limit(model: &'a Model, limit_bytes: usize) -> TopicWeights<'a> {
+        let columns = model.topic_word_columns();
+        let n_topics = model.n_topics();
+        let n_words = model.state.n_words;
+        let dense = (n_words * n_topics * std::mem::size_of::<f64>() <= limit_bytes).then(|| {
+            let mut table = Vec::with_capacity(n_words * n_topics);
+            let mut column = Vec::with_capacity(n_topics);
+            for word_idx in 0..n_words {
+                columns.fill(word_idx, &mut column);
+                table.extend_from_slice(&column);
+            }
+            table
+        });
+        TopicWeights { dense, columns }
+    }
+
+    /// Calls `f(tokens, table)` with a word-major table that covers the
+    /// document's words and the document's tokens as indices into it.
+    pub fn with_document<T>(&self, tokens: &[u32], f: impl FnOnce(&[u32], &[f64]) -> T) -> T {
+        if let Some(table) = &self.dense {
+            return f(tokens, table);
+        }
+        let mut words: Vec<u32> = tokens.to_vec();
+        words.sort_unstable();
+        words.dedup();
+        let local: Vec<u32> = tokens
+            .iter()
+            .map(|word| words.partition_point(|w| w < word) as u32)
+            .collect();
+        let n_topics = self.columns.n_topics();
+        let mut table = Vec::with_capacity(words.len().max(1) * n_topics);
+        let mut column = Vec::with_capacity(n_topics);
+        for &word in &words {
+            self.columns.fill(word as usize, &mut column);
+            table.extend_from_slice(&column);
+        }
+        if words.is_empty() {
+            // The estimators check the table's shape before the document's length.
+            table.resize(n_topics, 0.0);
+        }
+        f(&local, &table)
+    }
 }
 
 /// The random stream of document `doc_idx` under `seed` (SplitMix64 mixing of the index).
@@ -114,30 +196,33 @@ pub fn score_heldout(
     model: &Model,
     documents: &[EncodedDocument],
     settings: &ScoreSettings,
-) -> Result<HeldOutScore, (String, HeldOutError)> {
-    let phi = phi_by_word(model);
+) -> Result<HeldOutScore, ScoreError> {
+    let weights = TopicWeights::of(model);
     let alpha = &model.priors.alpha;
     let per_doc: Vec<(f64, usize)> = documents
         .par_iter()
         .enumerate()
         .map(|(doc_idx, doc)| {
             let mut rng = document_rng(settings.seed, doc_idx);
-            let scored = match settings.method {
+            let scored = weights.with_document(&doc.tokens, |tokens, phi| match settings.method {
                 Method::Completion => {
-                    heldout::completion_log_likelihood(&doc.tokens, &phi, alpha, &settings.fold_in, &mut rng)
+                    heldout::completion_log_likelihood(tokens, phi, alpha, &settings.fold_in, &mut rng)
                         .map(|c| (c.log_likelihood, c.tokens_scored))
                 }
                 Method::LeftToRight => heldout::left_to_right_log_likelihood(
-                    &doc.tokens,
-                    &phi,
+                    tokens,
+                    phi,
                     alpha,
                     settings.particles,
                     true,
                     &mut rng,
                 )
-                .map(|ll| (ll, doc.tokens.len())),
-            };
-            scored.map_err(|err| (doc.id.clone(), err))
+                .map(|ll| (ll, tokens.len())),
+            });
+            scored.map_err(|source| ScoreError::Document {
+                document: doc.id.clone(),
+                source,
+            })
         })
         .collect::<Result<_, _>>()?;
     let log_likelihood: f64 = per_doc.iter().map(|(ll, _)| ll).sum();
@@ -216,15 +301,22 @@ pub struct Placement {
 /// fold-in samples of the Beta marginals of Dirichlet(alpha + n_d)).
 pub fn place(
     model: &Model,
-    phi: &[f64],
+    weights: &TopicWeights<'_>,
     doc: &EncodedDocument,
     fold_in: &FoldInSettings,
     level: f64,
     rng: &mut Xoshiro256PlusPlus,
-) -> Result<Placement, String> {
+) -> Result<Placement, ScoreError> {
     let alpha = &model.priors.alpha;
     let a0: f64 = alpha.iter().sum();
-    let folded = heldout::fold_in(&doc.tokens, phi, alpha, fold_in, rng).map_err(|err| err.to_string())?;
+    let folded = weights
+        .with_document(&doc.tokens, |tokens, phi| {
+            heldout::fold_in(tokens, phi, alpha, fold_in, rng)
+        })
+        .map_err(|source| ScoreError::Document {
+            document: doc.id.clone(),
+            source,
+        })?;
     let n = doc.tokens.len() as f64;
     let mut low = Vec::with_capacity(alpha.len());
     let mut high = Vec::with_capacity(alpha.len());
@@ -234,8 +326,12 @@ pub fn place(
             .iter()
             .map(|counts| (f64::from(counts[topic_idx]) + alpha_k, n + a0))
             .collect();
-        let interval = crate::evaluate::uncertainty::mixture_share_interval(&components, level)
-            .map_err(|err| err.to_string())?;
+        let interval = uncertainty::mixture_share_interval(&components, level).map_err(|source| {
+            ScoreError::Interval {
+                document: doc.id.clone(),
+                source,
+            }
+        })?;
         low.push(interval.low);
         high.push(interval.high);
     }
@@ -347,21 +443,18 @@ pub fn top_word_ids(model: &Model, top_n: usize) -> Vec<Vec<u32>> {
 
 /// Scores coherence of the model's topics against `reference` documents
 /// (word ids in the model's vocabulary) and computes per-topic diagnostics.
+/// Topic rows and document shares are produced one at a time, never as
+/// whole K x V or D x K matrices.
 pub fn coherence_report<D: AsRef<[u32]> + Sync>(
     model: &Model,
     reference: &[D],
     reference_name: &str,
-    settings: &crate::evaluate::coherence::CoherenceSettings,
+    settings: &CoherenceSettings,
     top_n: usize,
-) -> Result<CoherenceReport, crate::evaluate::coherence::CoherenceError> {
+) -> Result<CoherenceReport, ScoreError> {
     let top = top_word_ids(model, top_n);
-    let scores = crate::evaluate::coherence::score_topics(&top, reference, settings)?;
-    let means = crate::evaluate::coherence::mean_coherence(&scores)
-        .ok_or(crate::evaluate::coherence::CoherenceError::ZeroTopWords)?;
-    let phi = model.topic_word_matrix();
-    let theta: Vec<Vec<f64>> = (0..model.corpus.n_docs())
-        .map(|d| model.doc_topic_shares(d))
-        .collect();
+    let scores = coherence::score_topics(&top, reference, settings)?;
+    let means = coherence::mean_coherence(&scores).ok_or(ScoreError::NoTopics)?;
     // The training tokens' word distribution, smoothed by beta as phi is, so
     // that a word with no training token keeps the divergence finite.
     let mut corpus_freq: Vec<f64> = (0..model.state.n_words)
@@ -370,10 +463,14 @@ pub fn coherence_report<D: AsRef<[u32]> + Sync>(
     for &word in &model.corpus.tokens {
         corpus_freq[word as usize] += 1.0;
     }
-    let diagnostics = crate::evaluate::coherence::topic_diagnostics(
-        &phi,
+    let topic_rows = TopicRows {
+        n_topics: model.n_topics(),
+        row: &|topic| model.topic_word_row(topic),
+    };
+    let diagnostics = diagnostics::diagnose_topics(
+        &topic_rows,
         &model.state.topic_totals,
-        &theta,
+        (0..model.corpus.n_docs()).map(|d| model.doc_topic_shares(d)),
         &corpus_freq,
         top_n,
     )?;
@@ -408,4 +505,67 @@ pub fn coherence_report<D: AsRef<[u32]> + Sync>(
         top_words: top_n,
         per_topic,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fitting::fit::{FitSettings, fit};
+    use crate::testbed::synthetic;
+
+    #[test]
+    fn columns_per_document_give_the_dense_table_results_bit_for_bit() {
+        // Source: common practice — the same terms added in the same order
+        // give the same floating-point result, so the memory-saving path must
+        // reproduce the dense table exactly.
+        let data = synthetic::two_topics(3);
+        let settings = FitSettings {
+            samples: 3,
+            lag: 2,
+            ..FitSettings::fixed(2, 40, 0.5, 0.1, 7)
+        };
+        let (model, _) = fit(data.corpus.clone(), &settings, &mut |_| {}).unwrap();
+        let documents = corpus_documents(&data.corpus);
+        let dense = TopicWeights::with_table_limit(&model, usize::MAX);
+        let columns = TopicWeights::with_table_limit(&model, 0);
+        assert!(dense.dense.is_some() && columns.dense.is_none());
+        let score_with = |weights: &TopicWeights<'_>| -> Vec<(u64, Vec<u64>)> {
+            documents
+                .iter()
+                .enumerate()
+                .map(|(idx, doc)| {
+                    let placed = place(
+                        &model,
+                        weights,
+                        doc,
+                        &FoldInSettings::default(),
+                        0.9,
+                        &mut document_rng(5, idx),
+                    )
+                    .unwrap();
+                    let completion = weights
+                        .with_document(&doc.tokens, |tokens, phi| {
+                            heldout::completion_log_likelihood(
+                                tokens,
+                                phi,
+                                &model.priors.alpha,
+                                &FoldInSettings::default(),
+                                &mut document_rng(6, idx),
+                            )
+                        })
+                        .unwrap();
+                    (
+                        completion.log_likelihood.to_bits(),
+                        placed
+                            .shares
+                            .iter()
+                            .chain(&placed.low)
+                            .map(|v| v.to_bits())
+                            .collect(),
+                    )
+                })
+                .collect()
+        };
+        assert_eq!(score_with(&dense), score_with(&columns));
+    }
 }

@@ -199,6 +199,48 @@ fn sparse_counts(state: &CountState, corpus: &Corpus) -> (SparseRows, SparseRows
     (topic_word, doc_topic)
 }
 
+/// Columns of the topic-word matrix: `phi_kw` for every topic k of one word
+/// w, averaged over the samples, computed from the sparse counts on demand.
+/// Each value is the same, bit for bit, as in [`Model::topic_word_row`]: the
+/// same terms are added in the same order.
+pub struct TopicWordColumns<'a> {
+    model: &'a Model,
+    /// The current state as a sample, when no samples were kept.
+    current: Option<Sample>,
+}
+
+impl TopicWordColumns<'_> {
+    /// Number of topics, the length of a column.
+    pub fn n_topics(&self) -> usize {
+        self.model.n_topics()
+    }
+
+    /// Writes `phi_kw` of word `word_idx` for every topic k into `column`
+    /// (resized to K).
+    pub fn fill(&self, word_idx: usize, column: &mut Vec<f64>) {
+        let samples = match &self.current {
+            Some(current) => std::slice::from_ref(current),
+            None => self.model.samples.as_slice(),
+        };
+        let n_words = self.model.state.n_words;
+        column.clear();
+        column.resize(self.n_topics(), 0.0);
+        let weight = 1.0 / samples.len() as f64;
+        for sample in samples {
+            let beta = sample.priors.beta_of(word_idx);
+            let beta_sum = sample.priors.beta_sum(n_words);
+            for (topic_idx, value) in column.iter_mut().enumerate() {
+                let denominator = sample.topic_totals[topic_idx] as f64 + beta_sum;
+                *value += weight * beta / denominator;
+                let count = Sample::count(&sample.topic_word[topic_idx], word_idx);
+                if count > 0 {
+                    *value += weight * f64::from(count) / denominator;
+                }
+            }
+        }
+    }
+}
+
 impl Model {
     /// Number of topics.
     pub fn n_topics(&self) -> usize {
@@ -238,6 +280,16 @@ impl Model {
             }
             row
         })
+    }
+
+    /// The topic-word shares of one word at a time (a column of `phi`), for
+    /// callers that must not hold the K x V matrix; see [`TopicWordColumns`].
+    pub fn topic_word_columns(&self) -> TopicWordColumns<'_> {
+        let current = self
+            .samples
+            .is_empty()
+            .then(|| Sample::of(self, self.iterations_done));
+        TopicWordColumns { model: self, current }
     }
 
     /// The full topic-word matrix `phi` (K rows of V).

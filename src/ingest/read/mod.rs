@@ -1,0 +1,672 @@
+//! Reading raw documents: folders of text files, JSON Lines, CSV and stdin.
+//!
+//! This module owns the step from input paths to [`RawDocument`]s. It decides
+//! the format of each input, walks folders in a fixed order, streams JSON
+//! Lines and CSV record by record, and turns every unusable file or record
+//! into a [`Diagnostic`] instead of stopping. Only problems that make a whole
+//! input unusable (a missing path, an unknown format, a CSV without the text
+//! column, a stream that breaks part way) stop reading with a [`ReadError`].
+//!
+//! Rules worth knowing:
+//! - Folders are walked depth first, entries of each folder in byte order of
+//!   their names; names starting with `.` are skipped. Linked folders are
+//!   followed, except a link back into a folder being walked.
+//! - Ids: a text file in a folder is named by its path below that folder with
+//!   `/` separators; a text file given directly by the path as given; a record
+//!   by its id field or column, or `file:line` when that is missing or empty.
+//! - A document whose text is empty or only whitespace is skipped, and so is
+//!   a document whose id was already handed out earlier in the same call.
+//! - The input `-` is standard input, read as JSON Lines (as CSV with the CSV
+//!   format, as one text document with the text format).
+
+mod csv_table;
+mod folder;
+mod json_lines;
+mod origin;
+
+use std::collections::HashSet;
+use std::fs;
+use std::io::{self, BufRead, BufReader};
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use csv_table::read_csv;
+use folder::{FolderWalk, offer_text};
+use json_lines::read_json_lines;
+pub use origin::{Diagnostic, DiagnosticKind, Origin};
+
+/// The origin file name given to everything read from standard input.
+pub const STDIN_ORIGIN: &str = "<stdin>";
+
+/// The input argument that stands for standard input.
+const STDIN_ARGUMENT: &str = "-";
+
+/// The UTF-8 encoding of U+FEFF, which some writers put at the start of a file.
+const BYTE_ORDER_MARK: &[u8] = b"\xEF\xBB\xBF";
+
+/// Starting capacity of the reused JSON Lines buffer and of file readers.
+const READ_BUFFER_BYTES: usize = 64 * 1024;
+
+/// How to interpret an input path.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize, clap::ValueEnum)]
+#[serde(rename_all = "lowercase")]
+pub enum InputFormat {
+    /// Decide from the file extension (.txt/.md text, .jsonl/.ndjson JSON Lines, .csv CSV).
+    #[default]
+    Auto,
+    /// One document per file.
+    Text,
+    /// One JSON object per line.
+    Jsonl,
+    /// Comma-separated values with a header row.
+    Csv,
+}
+
+/// Resolved reading options.
+#[derive(Clone, Debug)]
+pub struct ReadOptions {
+    /// The format of every input, or [`InputFormat::Auto`] to go by extension.
+    pub format: InputFormat,
+    /// The JSON field or CSV column holding the document text (required).
+    pub text_field: String,
+    /// The JSON field or CSV column holding the document id (optional).
+    pub id_field: String,
+    /// The JSON field or CSV column holding the document label (optional).
+    pub label_field: String,
+}
+
+impl Default for ReadOptions {
+    fn default() -> Self {
+        ReadOptions {
+            format: InputFormat::Auto,
+            text_field: "text".into(),
+            id_field: "id".into(),
+            label_field: "label".into(),
+        }
+    }
+}
+
+/// One document as read, before tokenizing.
+#[derive(Clone, Debug)]
+pub struct RawDocument {
+    /// The document's id, unique within one call of [`read_documents`].
+    pub id: String,
+    /// The document's text; never empty or only whitespace.
+    pub text: String,
+    /// The document's label, when the input has one.
+    pub label: Option<String>,
+    /// Where the document was read from.
+    pub origin: Origin,
+}
+
+/// Problems that stop reading altogether.
+#[derive(Debug, thiserror::Error)]
+pub enum ReadError {
+    /// An input path does not exist.
+    #[error("{path}: no such file or folder; check the path")]
+    Missing {
+        /// The input as given.
+        path: PathBuf,
+    },
+    /// The list of inputs is empty.
+    #[error("no inputs given; pass one or more files or folders, or `-` to read JSON Lines from stdin")]
+    NoInputs,
+    /// A file's format cannot be told from its extension.
+    #[error("{path}: cannot tell the format from the file extension; pass --format text|jsonl|csv")]
+    UnknownFormat {
+        /// The file as given.
+        path: PathBuf,
+    },
+    /// A CSV header row lacks the text column.
+    #[error(
+        "{path}: the header row has no column `{column}` (columns: {}); set the text field to the column holding the text",
+        list_columns(.available)
+    )]
+    MissingColumn {
+        /// The CSV file.
+        path: PathBuf,
+        /// The text column that was asked for.
+        column: String,
+        /// The columns the header row does name.
+        available: Vec<String>,
+    },
+    /// A CSV input has no usable header row.
+    #[error("{path}: {problem}; a CSV input must start with a header row naming its columns")]
+    BadHeader {
+        /// The CSV file.
+        path: PathBuf,
+        /// What is wrong with the header row.
+        problem: String,
+    },
+    /// Reading an opened input failed part way.
+    #[error("{path}: reading failed part way: {source}; check the input and run again")]
+    Io {
+        /// The input being read ([`STDIN_ORIGIN`] for stdin).
+        path: PathBuf,
+        /// The underlying failure.
+        source: io::Error,
+    },
+}
+
+fn list_columns(columns: &[String]) -> String {
+    if columns.is_empty() {
+        "none".to_string()
+    } else {
+        columns
+            .iter()
+            .map(|name| format!("`{name}`"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+}
+
+/// Counts of what was read.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct ReadCounts {
+    /// Every file or record considered, whether used or skipped.
+    pub records_seen: usize,
+    /// The documents handed to the sink.
+    pub documents_emitted: usize,
+}
+
+/// Reads every input, handing each good document to `sink` and recording problems in `diagnostics`.
+///
+/// All inputs are checked (existence, format) before anything is read, so a
+/// mistyped path fails fast. Documents are handed over in input order, and
+/// within a folder in walk order.
+pub fn read_documents(
+    inputs: &[PathBuf],
+    options: &ReadOptions,
+    diagnostics: &mut Vec<Diagnostic>,
+    sink: &mut dyn FnMut(RawDocument),
+) -> Result<ReadCounts, ReadError> {
+    let mut open_stdin = || -> Box<dyn BufRead> { Box::new(io::stdin().lock()) };
+    read_documents_from(inputs, options, diagnostics, sink, &mut open_stdin)
+}
+
+/// [`read_documents`] with the source of standard input passed in.
+fn read_documents_from(
+    inputs: &[PathBuf],
+    options: &ReadOptions,
+    diagnostics: &mut Vec<Diagnostic>,
+    sink: &mut dyn FnMut(RawDocument),
+    open_stdin: &mut dyn FnMut() -> Box<dyn BufRead>,
+) -> Result<ReadCounts, ReadError> {
+    if inputs.is_empty() {
+        return Err(ReadError::NoInputs);
+    }
+    let plans = inputs
+        .iter()
+        .map(|path| plan_input(path, options.format))
+        .collect::<Result<Vec<_>, _>>()?;
+    let mut collector = Collector {
+        diagnostics,
+        sink,
+        seen_ids: HashSet::new(),
+        counts: ReadCounts::default(),
+    };
+    for plan in plans {
+        match plan {
+            InputPlan::Stdin => read_stdin(open_stdin(), options, &mut collector)?,
+            InputPlan::Folder(folder) => {
+                let mut walk = FolderWalk {
+                    options,
+                    relative: Vec::new(),
+                    ancestors: Vec::new(),
+                };
+                walk.walk(folder, &mut collector)?;
+            }
+            InputPlan::File(path, kind) => {
+                let id = path.to_string_lossy().into_owned();
+                read_file(path, kind, id, options, &mut collector)?;
+            }
+            InputPlan::Unopenable(path, error) => {
+                collector.counts.records_seen += 1;
+                collector.skip(
+                    DiagnosticKind::Unreadable,
+                    Origin {
+                        file: path.display().to_string(),
+                        line: None,
+                    },
+                    None,
+                    format!("cannot be opened: {error}; check its permissions"),
+                );
+            }
+        }
+    }
+    Ok(collector.counts)
+}
+
+/// How a file's content is laid out.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum FileKind {
+    Text,
+    JsonLines,
+    Csv,
+}
+
+/// What to do with one input, decided before anything is read.
+enum InputPlan<'a> {
+    Stdin,
+    Folder(&'a Path),
+    File(&'a Path, FileKind),
+    Unopenable(&'a Path, io::Error),
+}
+
+fn plan_input(path: &Path, format: InputFormat) -> Result<InputPlan<'_>, ReadError> {
+    if path.as_os_str() == STDIN_ARGUMENT {
+        return Ok(InputPlan::Stdin);
+    }
+    match fs::metadata(path) {
+        Ok(metadata) if metadata.is_dir() => Ok(InputPlan::Folder(path)),
+        Ok(_) => {
+            let kind = match format {
+                InputFormat::Auto => kind_from_extension(path),
+                InputFormat::Text => Some(FileKind::Text),
+                InputFormat::Jsonl => Some(FileKind::JsonLines),
+                InputFormat::Csv => Some(FileKind::Csv),
+            };
+            match kind {
+                Some(kind) => Ok(InputPlan::File(path, kind)),
+                None => Err(ReadError::UnknownFormat {
+                    path: path.to_path_buf(),
+                }),
+            }
+        }
+        Err(error)
+            if matches!(
+                error.kind(),
+                io::ErrorKind::NotFound | io::ErrorKind::NotADirectory
+            ) =>
+        {
+            Err(ReadError::Missing {
+                path: path.to_path_buf(),
+            })
+        }
+        Err(error) => Ok(InputPlan::Unopenable(path, error)),
+    }
+}
+
+/// The lowercased extension of `path`, if it has one.
+fn lowercase_extension(path: &Path) -> Option<String> {
+    path.extension()
+        .map(|extension| extension.to_string_lossy().to_ascii_lowercase())
+}
+
+fn kind_from_extension(path: &Path) -> Option<FileKind> {
+    match lowercase_extension(path)?.as_str() {
+        "txt" | "md" => Some(FileKind::Text),
+        "jsonl" | "ndjson" => Some(FileKind::JsonLines),
+        "csv" => Some(FileKind::Csv),
+        _ => None,
+    }
+}
+
+/// Holds the outputs of one call and applies the rules shared by all formats.
+struct Collector<'a> {
+    diagnostics: &'a mut Vec<Diagnostic>,
+    sink: &'a mut dyn FnMut(RawDocument),
+    seen_ids: HashSet<String>,
+    counts: ReadCounts,
+}
+
+impl Collector<'_> {
+    fn skip(&mut self, kind: DiagnosticKind, origin: Origin, document: Option<String>, message: String) {
+        self.diagnostics.push(Diagnostic {
+            kind,
+            origin,
+            document,
+            message,
+        });
+    }
+
+    /// Hands `document` to the sink unless it is empty or its id was used before.
+    fn offer(&mut self, document: RawDocument) {
+        if document.text.trim().is_empty() {
+            let message = if document.text.is_empty() {
+                format!("document `{}` is empty", document.id)
+            } else {
+                format!("document `{}` holds only whitespace", document.id)
+            };
+            self.skip(DiagnosticKind::Empty, document.origin, Some(document.id), message);
+            return;
+        }
+        if self.seen_ids.contains(&document.id) {
+            let message = format!(
+                "document id `{}` was already used by an earlier document; this one is skipped",
+                document.id
+            );
+            self.skip(
+                DiagnosticKind::DuplicateId,
+                document.origin,
+                Some(document.id),
+                message,
+            );
+            return;
+        }
+        self.seen_ids.insert(document.id.clone());
+        self.counts.documents_emitted += 1;
+        (self.sink)(document);
+    }
+}
+
+/// Reads one file; `id` names it when it is a text file.
+fn read_file(
+    path: &Path,
+    kind: FileKind,
+    id: String,
+    options: &ReadOptions,
+    collector: &mut Collector<'_>,
+) -> Result<(), ReadError> {
+    let origin_name = path.display().to_string();
+    if kind == FileKind::Text {
+        collector.counts.records_seen += 1;
+        match fs::read(path) {
+            Ok(bytes) => offer_text(bytes, id, origin_name, collector),
+            Err(error) => collector.skip(
+                DiagnosticKind::Unreadable,
+                Origin {
+                    file: origin_name,
+                    line: None,
+                },
+                Some(id.clone()),
+                format!("document `{id}` cannot be read: {error}"),
+            ),
+        }
+        return Ok(());
+    }
+    let file = match fs::File::open(path) {
+        Ok(file) => file,
+        Err(error) => {
+            collector.counts.records_seen += 1;
+            collector.skip(
+                DiagnosticKind::Unreadable,
+                Origin {
+                    file: origin_name,
+                    line: None,
+                },
+                None,
+                format!("cannot be opened: {error}; check its permissions"),
+            );
+            return Ok(());
+        }
+    };
+    if kind == FileKind::JsonLines {
+        let reader = BufReader::with_capacity(READ_BUFFER_BYTES, file);
+        read_json_lines(reader, &origin_name, options, collector)
+    } else {
+        read_csv(file, &origin_name, options, collector)
+    }
+}
+
+/// Reads standard input in the format asked for (JSON Lines by default).
+fn read_stdin(
+    mut reader: Box<dyn BufRead>,
+    options: &ReadOptions,
+    collector: &mut Collector<'_>,
+) -> Result<(), ReadError> {
+    match options.format {
+        InputFormat::Auto | InputFormat::Jsonl => read_json_lines(reader, STDIN_ORIGIN, options, collector),
+        InputFormat::Csv => read_csv(reader, STDIN_ORIGIN, options, collector),
+        InputFormat::Text => {
+            let mut bytes = Vec::new();
+            reader.read_to_end(&mut bytes).map_err(|source| ReadError::Io {
+                path: PathBuf::from(STDIN_ORIGIN),
+                source,
+            })?;
+            collector.counts.records_seen += 1;
+            offer_text(
+                bytes,
+                STDIN_ORIGIN.to_string(),
+                STDIN_ORIGIN.to_string(),
+                collector,
+            );
+            Ok(())
+        }
+    }
+}
+
+#[cfg(test)]
+mod test_support {
+    //! What the reader tests of every input kind share: running a call and
+    //! looking at what it produced.
+
+    use super::*;
+    use std::io::Cursor;
+
+    /// What one call produced.
+    pub(super) struct Outcome {
+        pub(super) result: Result<ReadCounts, ReadError>,
+        pub(super) documents: Vec<RawDocument>,
+        pub(super) diagnostics: Vec<Diagnostic>,
+    }
+
+    impl Outcome {
+        pub(super) fn ids(&self) -> Vec<&str> {
+            self.documents
+                .iter()
+                .map(|document| document.id.as_str())
+                .collect()
+        }
+
+        pub(super) fn kinds(&self) -> Vec<DiagnosticKind> {
+            self.diagnostics
+                .iter()
+                .map(|diagnostic| diagnostic.kind)
+                .collect()
+        }
+
+        pub(super) fn counts(&self) -> ReadCounts {
+            *self.result.as_ref().expect("reading should succeed")
+        }
+    }
+
+    pub(super) fn options_with(format: InputFormat) -> ReadOptions {
+        ReadOptions {
+            format,
+            ..ReadOptions::default()
+        }
+    }
+
+    pub(super) fn run_with_stdin(inputs: &[PathBuf], options: &ReadOptions, stdin: &[u8]) -> Outcome {
+        let mut documents = Vec::new();
+        let mut diagnostics = Vec::new();
+        let stdin = stdin.to_vec();
+        let mut open_stdin = move || -> Box<dyn BufRead> { Box::new(Cursor::new(stdin.clone())) };
+        let result = read_documents_from(
+            inputs,
+            options,
+            &mut diagnostics,
+            &mut |document| documents.push(document),
+            &mut open_stdin,
+        );
+        Outcome {
+            result,
+            documents,
+            diagnostics,
+        }
+    }
+
+    pub(super) fn run(inputs: &[PathBuf], options: &ReadOptions) -> Outcome {
+        run_with_stdin(inputs, options, b"")
+    }
+
+    /// Runs the JSON Lines reader over in-memory bytes named `mem.jsonl`.
+    pub(super) fn run_json_lines(bytes: &[u8], options: &ReadOptions) -> Outcome {
+        let mut documents = Vec::new();
+        let mut diagnostics = Vec::new();
+        let mut sink = |document| documents.push(document);
+        let mut collector = Collector {
+            diagnostics: &mut diagnostics,
+            sink: &mut sink,
+            seen_ids: HashSet::new(),
+            counts: ReadCounts::default(),
+        };
+        let result = read_json_lines(Cursor::new(bytes), "mem.jsonl", options, &mut collector)
+            .map(|()| collector.counts);
+        Outcome {
+            result,
+            documents,
+            diagnostics,
+        }
+    }
+
+    pub(super) fn write(root: &Path, relative: &str, bytes: &[u8]) -> PathBuf {
+        let path = root.join(relative);
+        fs::create_dir_all(path.parent().expect("test paths have a parent")).expect("create test folder");
+        fs::write(&path, bytes).expect("write test file");
+        path
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::test_support::*;
+    use super::*;
+
+    #[test]
+    pub(super) fn an_unknown_extension_needs_an_explicit_format() {
+        let folder = tempfile::tempdir().expect("temp dir");
+        let path = write(folder.path(), "notes.rtf", b"some words");
+        let outcome = run(std::slice::from_ref(&path), &ReadOptions::default());
+        // Source: common practice (refuse to guess a format; say how to name it).
+        match &outcome.result {
+            Err(error @ ReadError::UnknownFormat { path: reported }) => {
+                assert_eq!(reported, &path);
+                let message = error.to_string();
+                assert!(message.contains("notes.rtf"), "{message}");
+                assert!(message.contains("--format text|jsonl|csv"), "{message}");
+            }
+            other => panic!("expected UnknownFormat, got {other:?}"),
+        }
+        assert!(outcome.documents.is_empty());
+        let forced = run(std::slice::from_ref(&path), &options_with(InputFormat::Text));
+        assert_eq!(forced.ids(), [path.to_string_lossy().as_ref()]);
+    }
+
+    #[test]
+    pub(super) fn a_missing_path_stops_before_anything_is_read() {
+        let folder = tempfile::tempdir().expect("temp dir");
+        let good = write(folder.path(), "good.txt", b"words");
+        let missing = folder.path().join("absent.txt");
+        let below_a_file = good.join("child.txt");
+        // Source: common practice (check every input before the slow part starts).
+        for bad in [&missing, &below_a_file] {
+            let outcome = run(&[good.clone(), bad.clone()], &ReadOptions::default());
+            match &outcome.result {
+                Err(error @ ReadError::Missing { path }) => {
+                    assert_eq!(path, bad);
+                    assert!(error.to_string().contains("no such file or folder"));
+                }
+                other => panic!("expected Missing, got {other:?}"),
+            }
+            assert!(
+                outcome.documents.is_empty(),
+                "nothing is read when an input is missing"
+            );
+        }
+    }
+
+    #[test]
+    pub(super) fn no_inputs_is_an_error() {
+        let outcome = run(&[], &ReadOptions::default());
+        // Source: common practice (an empty input list is a usage mistake, not an empty corpus).
+        assert!(matches!(outcome.result, Err(ReadError::NoInputs)));
+    }
+
+    #[test]
+    pub(super) fn stdin_is_read_as_json_lines() {
+        let stdin = b"{\"text\": \"from stdin\"}\n{\"id\": \"s2\", \"text\": \"second\"}\n";
+        let outcome = run_with_stdin(&[PathBuf::from("-")], &ReadOptions::default(), stdin);
+        // Source: common practice ("-" names standard input).
+        assert_eq!(outcome.ids(), ["<stdin>:1", "s2"]);
+        assert_eq!(
+            outcome.documents[0].origin,
+            Origin {
+                file: "<stdin>".into(),
+                line: Some(1)
+            }
+        );
+        // Source: RFC 4180 §2.3 (header row first; the first record is on line 2).
+        let as_csv = run_with_stdin(
+            &[PathBuf::from("-")],
+            &options_with(InputFormat::Csv),
+            b"text\nrow one\n",
+        );
+        assert_eq!(as_csv.ids(), ["<stdin>:2"]);
+    }
+
+    #[test]
+    pub(super) fn duplicate_ids_keep_the_first_document() {
+        let folder = tempfile::tempdir().expect("temp dir");
+        let text_file = write(folder.path(), "x.txt", b"from the text file");
+        let id = text_file.to_string_lossy().into_owned();
+        let jsonl = write(
+            folder.path(),
+            "records.jsonl",
+            serde_json::json!({ "id": id, "text": "same id as the text file" })
+                .to_string()
+                .as_bytes(),
+        );
+        let csv = write(
+            folder.path(),
+            "table.csv",
+            b"id,text\nr1,first\nr2,second\nr1,again\n",
+        );
+        let outcome = run(&[text_file, jsonl, csv], &ReadOptions::default());
+        // Source: common practice (ids name documents uniquely; the first one wins).
+        assert_eq!(outcome.ids(), [id.as_str(), "r1", "r2"]);
+        assert_eq!(outcome.documents[0].text, "from the text file");
+        assert_eq!(
+            outcome.kinds(),
+            [DiagnosticKind::DuplicateId, DiagnosticKind::DuplicateId]
+        );
+        assert_eq!(outcome.diagnostics[1].document.as_deref(), Some("r1"));
+        assert_eq!(outcome.diagnostics[1].origin.line, Some(4));
+        assert!(outcome.diagnostics[1].message.contains("`r1` was already used"));
+        assert_eq!(
+            outcome.counts(),
+            ReadCounts {
+                records_seen: 5,
+                documents_emitted: 3
+            }
+        );
+    }
+
+    #[test]
+    pub(super) fn empty_and_whitespace_documents_are_skipped() {
+        let folder = tempfile::tempdir().expect("temp dir");
+        write(folder.path(), "a/b.txt", b"");
+        write(folder.path(), "c.txt", b" \t\r\n\n");
+        write(folder.path(), "d.txt", "\u{3000}\u{00A0}\u{2028}".as_bytes());
+        write(folder.path(), "e.txt", b"real words");
+        let outcome = run(&[folder.path().to_path_buf()], &ReadOptions::default());
+        // Source: Unicode PropList.txt White_Space (U+3000, U+00A0 and U+2028 are white space).
+        assert_eq!(outcome.ids(), ["e.txt"]);
+        assert_eq!(outcome.kinds(), vec![DiagnosticKind::Empty; 3]);
+        assert_eq!(outcome.diagnostics[0].message, "document `a/b.txt` is empty");
+        assert_eq!(outcome.diagnostics[0].document.as_deref(), Some("a/b.txt"));
+        assert_eq!(
+            outcome.diagnostics[1].message,
+            "document `c.txt` holds only whitespace"
+        );
+        assert_eq!(
+            outcome.counts(),
+            ReadCounts {
+                records_seen: 4,
+                documents_emitted: 1
+            }
+        );
+
+        let json = run_json_lines(
+            b"{\"id\": \"blank\", \"text\": \"   \"}\n{\"id\": \"none\", \"text\": \"\"}\n",
+            &ReadOptions::default(),
+        );
+        assert_eq!(json.kinds(), [DiagnosticKind::Empty, DiagnosticKind::Empty]);
+        assert_eq!(
+            json.diagnostics[1].to_string(),
+            "mem.jsonl:2: document `none` is empty"
+        );
+    }
+}
