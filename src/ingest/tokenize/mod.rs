@@ -8,9 +8,10 @@
 mod english;
 mod filters;
 mod languages;
+mod stopwords;
 
 use std::borrow::Cow;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use serde::{Deserialize, Serialize};
 use unicode_normalization::{IsNormalized, UnicodeNormalization, is_nfkc_quick};
@@ -22,14 +23,13 @@ pub use filters::{
     StopwordFilter, TokenFilter,
 };
 
-use languages::{STEMMER_LANGUAGES, STOPWORD_LANGUAGES, StopwordOrigin};
+use languages::STEMMER_LANGUAGES;
+pub use stopwords::{known_languages, looks_like_path, resolve_stopwords};
+use stopwords::{normalized_sorted_words, stopword_language_examples};
 
 /// Apostrophe look-alikes mapped to ASCII `'` before segmentation:
 /// U+2019 RIGHT SINGLE QUOTATION MARK and U+02BC MODIFIER LETTER APOSTROPHE.
 const TYPOGRAPHIC_APOSTROPHES: [char; 2] = ['\u{2019}', '\u{02BC}'];
-
-/// The stopword spec meaning "no stopword list at all".
-const NO_STOPWORDS_SPEC: &str = "none";
 
 /// Everything that decides how text becomes tokens; stored in corpus and model files.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -170,33 +170,6 @@ pub enum TokenizeError {
     },
 }
 
-/// A few stopword language names and codes for error text, with a count of the rest.
-fn stopword_language_examples() -> String {
-    const SHOWN: [&str; 8] = [
-        "english",
-        "french",
-        "german",
-        "spanish",
-        "italian",
-        "portuguese",
-        "dutch",
-        "russian",
-    ];
-    let shown: Vec<String> = SHOWN
-        .iter()
-        .filter_map(|name| languages::find_stopword_language(name))
-        .map(|language| format!("{} ({})", language.name, language.code))
-        .collect();
-    let rest = STOPWORD_LANGUAGES.len().saturating_sub(shown.len());
-    format!("{} and {rest} more", shown.join(", "))
-}
-
-/// Names of the languages usable as stopword specs (each also by its ISO
-/// 639-1 code), sorted; for help text.
-pub fn known_languages() -> Vec<&'static str> {
-    STOPWORD_LANGUAGES.iter().map(|language| language.name).collect()
-}
-
 /// Names of the languages usable as `stemmer` (each also by its ISO 639-1
 /// code), sorted; for help text.
 pub fn known_stemmer_languages() -> Vec<&'static str> {
@@ -220,117 +193,13 @@ pub fn normalize_text(text: &str) -> Cow<'_, str> {
 
 /// Normalises one stopword so it compares equal to tokens: trims it, applies
 /// [`normalize_text`], and lowercases it when `lowercase` is set.
-fn normalize_word(word: &str, lowercase: bool) -> String {
+pub(crate) fn normalize_word(word: &str, lowercase: bool) -> String {
     let normalized = normalize_text(word.trim());
     if lowercase {
         normalized.to_lowercase()
     } else {
         normalized.into_owned()
     }
-}
-
-/// Normalises (NFKC, apostrophes, lowercase) and sorts words, dropping empty
-/// ones and duplicates.
-fn normalized_sorted_words<'a>(words: impl IntoIterator<Item = &'a str>) -> Vec<String> {
-    let mut normalized: Vec<String> = words
-        .into_iter()
-        .map(|word| normalize_word(word, true))
-        .filter(|word| !word.is_empty())
-        .collect();
-    normalized.sort_unstable();
-    normalized.dedup();
-    normalized
-}
-
-/// Whether a stopword spec names a file rather than a language: it
-/// contains a path separator or a `.`, or a file of that name exists.
-/// `none` is never a path. Surrounding whitespace is ignored.
-pub fn looks_like_path(spec: &str) -> bool {
-    let spec = spec.trim();
-    if spec.is_empty() || spec.eq_ignore_ascii_case(NO_STOPWORDS_SPEC) {
-        return false;
-    }
-    spec.contains(['/', '\\', '.']) || spec.contains(std::path::MAIN_SEPARATOR) || Path::new(spec).is_file()
-}
-
-/// Reads a stopword file: one word per line, `#` starts a comment, blank
-/// lines are ignored (several words on one line are each taken).
-fn read_stopword_file(path: &Path) -> Result<Vec<String>, TokenizeError> {
-    let bytes = std::fs::read(path).map_err(|io_error| TokenizeError::StopwordFileUnreadable {
-        path: path.to_path_buf(),
-        io_error,
-    })?;
-    let mut words = Vec::new();
-    for (index, raw_line) in bytes.split(|byte| *byte == b'\n').enumerate() {
-        let line = std::str::from_utf8(raw_line).map_err(|_| TokenizeError::StopwordFileNotUtf8 {
-            path: path.to_path_buf(),
-            line: index + 1,
-        })?;
-        let line = if index == 0 {
-            line.strip_prefix('\u{FEFF}').unwrap_or(line)
-        } else {
-            line
-        };
-        let content = line.split('#').next().unwrap_or_default();
-        words.extend(content.split_whitespace().map(str::to_string));
-    }
-    Ok(words)
-}
-
-/// Resolves stopword specs ("none", a language name or code, or a file path)
-/// into (sorted word list, source descriptions).
-///
-/// * `none` (any case) means no list and must stand alone.
-/// * A language by name or ISO 639-1 code, any case (see [`known_languages`]):
-///   `english`/`en` is this project's own list ([`ENGLISH_STOPWORDS`]), the
-///   others come from the `stop-words` crate. Described by its name.
-/// * A path (contains `/`, `\` or `.`, or is an existing file): a UTF-8 file
-///   with one word per line, `#` comments, blank lines ignored. Described as
-///   `file:PATH`.
-///
-/// Words are NFKC-normalised, apostrophes mapped to `'`, lowercased, sorted
-/// and deduplicated. No specs give an empty list and no sources.
-pub fn resolve_stopwords(specs: &[String]) -> Result<(Vec<String>, Vec<String>), TokenizeError> {
-    let trimmed: Vec<&str> = specs.iter().map(|spec| spec.trim()).collect();
-    if trimmed.iter().any(|spec| spec.is_empty()) {
-        return Err(TokenizeError::EmptyStopwordSpec);
-    }
-    let is_none = |spec: &&str| spec.eq_ignore_ascii_case(NO_STOPWORDS_SPEC);
-    if trimmed.iter().any(is_none) {
-        let others: Vec<&str> = trimmed.iter().copied().filter(|spec| !is_none(spec)).collect();
-        if !others.is_empty() {
-            return Err(TokenizeError::NoneCombinedWithOtherStopwords {
-                others: others.join(", "),
-            });
-        }
-        return Ok((Vec::new(), vec![NO_STOPWORDS_SPEC.to_string()]));
-    }
-
-    let mut raw_words: Vec<String> = Vec::new();
-    let mut sources: Vec<String> = Vec::new();
-    for spec in trimmed {
-        let (source, words): (String, Vec<String>) = if looks_like_path(spec) {
-            (format!("file:{spec}"), read_stopword_file(Path::new(spec))?)
-        } else {
-            let language = languages::find_stopword_language(spec)
-                .ok_or_else(|| TokenizeError::UnknownLanguage(spec.to_string()))?;
-            let words = match language.origin {
-                StopwordOrigin::BuiltInEnglish => ENGLISH_STOPWORDS,
-                StopwordOrigin::StopWordsCrate(code) => stop_words::lookup(code)
-                    .ok_or_else(|| TokenizeError::UnknownLanguage(spec.to_string()))?,
-            };
-            (
-                language.name.to_string(),
-                words.iter().map(|word| word.to_string()).collect(),
-            )
-        };
-        if !sources.contains(&source) {
-            sources.push(source);
-            raw_words.extend(words);
-        }
-    }
-    let words = normalized_sorted_words(raw_words.iter().map(String::as_str));
-    Ok((words, sources))
 }
 
 /// A ready-to-use tokenizer built from settings: NFKC and apostrophe
@@ -437,6 +306,7 @@ impl Tokenizer {
 #[cfg(test)]
 mod tests {
     use super::*;
+
     use std::io::Write;
 
     /// Settings that keep every word of length 1..=40 (no stopwords, no stemming).
@@ -579,16 +449,6 @@ mod tests {
     }
 
     #[test]
-    fn english_spec_and_code_give_the_builtin_list() {
-        // Source: ISO 639-1 (en = English).
-        let by_name = resolve_stopwords(&specs(&["english"])).expect("english resolves");
-        let by_code = resolve_stopwords(&specs(&["EN"])).expect("en resolves");
-        assert_eq!(by_name, by_code);
-        assert_eq!(by_name.0, TokenizerSettings::default().stopwords);
-        assert_eq!(by_name.1, ["english"]);
-    }
-
-    #[test]
     fn french_stopword_from_the_crate_is_removed() {
         // Source: the stopwords-iso French list shipped by the stop-words
         // crate (checked here to hold "sur" and "est").
@@ -604,18 +464,6 @@ mod tests {
         );
         assert!(kept.iter().any(|token| token == "chat"), "{kept:?}");
         assert!(kept.iter().any(|token| token == "table"), "{kept:?}");
-    }
-
-    #[test]
-    fn several_languages_merge_sorted_and_deduplicated() {
-        // Source: stopwords-iso German and Spanish lists in the stop-words crate.
-        let (words, sources) =
-            resolve_stopwords(&specs(&["german", "es", "spanish"])).expect("languages resolve");
-        assert_eq!(sources, ["german", "spanish"]);
-        assert!(words.windows(2).all(|pair| pair[0] < pair[1]));
-        for word in ["und", "pero"] {
-            assert!(words.iter().any(|w| w == word), "missing {word}");
-        }
     }
 
     #[test]
@@ -637,20 +485,6 @@ mod tests {
     }
 
     #[test]
-    fn path_specs_are_told_apart_from_language_specs() {
-        // Source: common practice (file paths carry a separator or an
-        // extension; language names and ISO 639-1 codes carry neither).
-        assert!(looks_like_path("lists/extra.txt"));
-        assert!(looks_like_path("extra.txt"));
-        assert!(looks_like_path("C:\\lists\\extra"));
-        assert!(!looks_like_path("french"));
-        assert!(!looks_like_path("de"));
-        assert!(!looks_like_path("none"));
-        let file = stopword_file(b"word\n");
-        assert!(looks_like_path(&file.path().to_string_lossy()));
-    }
-
-    #[test]
     fn none_keeps_every_word() {
         // Source: common practice (no stopword list removes nothing).
         let (words, sources) = resolve_stopwords(&specs(&["None"])).expect("none resolves");
@@ -661,17 +495,6 @@ mod tests {
             tokens(&settings, "the cat and the hat"),
             ["the", "cat", "and", "the", "hat"]
         );
-    }
-
-    #[test]
-    fn none_with_other_specs_is_an_error() {
-        // Source: common practice ("no list" and "a list" contradict each other).
-        let error = resolve_stopwords(&specs(&["none", "english"])).expect_err("must fail");
-        assert!(matches!(
-            error,
-            TokenizeError::NoneCombinedWithOtherStopwords { .. }
-        ));
-        assert!(error.to_string().contains("english"), "{error}");
     }
 
     #[test]
@@ -702,49 +525,6 @@ mod tests {
     }
 
     #[test]
-    fn unknown_language_error_lists_languages_and_mentions_files() {
-        // Source: common practice (an error says what would have been accepted).
-        let error = resolve_stopwords(&specs(&["klingonese"])).expect_err("must fail");
-        assert!(matches!(&error, TokenizeError::UnknownLanguage(name) if name == "klingonese"));
-        let message = error.to_string();
-        for part in ["klingonese", "english", "french", "file"] {
-            assert!(message.contains(part), "{message}");
-        }
-    }
-
-    #[test]
-    fn missing_stopword_file_error_names_the_path() {
-        // Source: common practice (I/O errors name the file and the OS reason).
-        let path = "/nonexistent-themata-dir/stopwords.txt";
-        let error = resolve_stopwords(&specs(&[path])).expect_err("must fail");
-        assert!(matches!(error, TokenizeError::StopwordFileUnreadable { .. }));
-        let message = error.to_string();
-        assert!(message.contains(path), "{message}");
-        assert!(message.contains("No such file"), "{message}");
-    }
-
-    #[test]
-    fn stopword_file_with_invalid_utf8_names_path_and_line() {
-        // Source: RFC 3629 (0xFF never appears in UTF-8).
-        let file = stopword_file(b"good\nfine\nbad\xFFword\n");
-        let path = file.path().to_string_lossy().into_owned();
-        let error = resolve_stopwords(std::slice::from_ref(&path)).expect_err("must fail");
-        assert!(
-            matches!(error, TokenizeError::StopwordFileNotUtf8 { line: 3, .. }),
-            "{error:?}"
-        );
-        let message = error.to_string();
-        assert!(message.contains(&path) && message.contains("line 3"), "{message}");
-    }
-
-    #[test]
-    fn empty_spec_is_an_error() {
-        // Source: common practice (a blank value is a mistake, not a language).
-        let error = resolve_stopwords(&specs(&["  "])).expect_err("must fail");
-        assert!(matches!(error, TokenizeError::EmptyStopwordSpec));
-    }
-
-    #[test]
     fn invalid_length_bounds_are_errors() {
         // Source: common practice (an empty range keeps nothing; length 0 is no word).
         let reversed = keep_everything().with_length_bounds(5, 3);
@@ -772,17 +552,6 @@ mod tests {
             message.contains("english") && message.contains("french"),
             "{message}"
         );
-    }
-
-    #[test]
-    fn known_language_lists_cover_english_french_and_stemmers() {
-        // Source: ISO 639-1 language names; rust-stemmers Algorithm enum.
-        let languages = known_languages();
-        assert!(languages.contains(&"english") && languages.contains(&"french"));
-        assert!(languages.len() > 50, "{}", languages.len());
-        let stemmers = known_stemmer_languages();
-        assert!(stemmers.contains(&"english") && stemmers.contains(&"russian"));
-        assert_eq!(stemmers.len(), 18);
     }
 
     #[test]
