@@ -9,9 +9,9 @@ use criterion::{BenchmarkId, Criterion, Throughput, criterion_group, criterion_m
 use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use themata::fitting::sampler::{
-    BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, WordTopicCounts, default_shards,
-    sweep_reference,
+    BetaPrior, CountState, Priors, ShardedSampler, Topic, WordTopicCounts, default_shards, sweep_reference,
 };
+use themata::fitting::schedule::SamplerKind;
 use themata::testbed::bench::{Case, corpus_of};
 
 fn sweeps(c: &mut Criterion) {
@@ -38,11 +38,12 @@ fn sweeps(c: &mut Criterion) {
             b.iter(|| sweep_reference(&mut state, &corpus, &priors, &mut rng));
         });
         for (name, kernel) in [
-            ("exact", BlockKernel::Exact),
-            ("metropolis", BlockKernel::Metropolis),
+            ("exact", SamplerKind::Exact),
+            ("metropolis", SamplerKind::Metropolis),
         ] {
             let mut state = start.clone();
-            let mut engine = ShardedSampler::new(&corpus, default_shards(corpus.n_tokens(), kernel), kernel);
+            let mut engine = ShardedSampler::new(&corpus, default_shards(corpus.n_tokens(), kernel), kernel)
+                .expect("a block-parallel sampler");
             let mut iteration = 0;
             group.bench_with_input(BenchmarkId::new(name, n_topics), &n_topics, |b, _| {
                 b.iter(|| {

@@ -13,7 +13,8 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 use serde::Deserialize;
 
-use crate::fitting::fit::{FitSettings, PriorSpec, SamplerChoice};
+use crate::fitting::fit::{FitSettings, PriorSpec};
+use crate::fitting::schedule::SamplerChoice;
 use crate::ingest::read::{InputFormat, ReadOptions};
 use crate::ingest::tokenize::{self, TokenizerSettings};
 use crate::ingest::vocab::PruneRules;

@@ -1,6 +1,7 @@
 //! `themata build`: raw documents in, corpus file out.
 
 use std::path::PathBuf;
+use themata::model::corpus_file::save_corpus;
 
 use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus};
 use themata::settings::{InputOptions, TokenizerOptions, VocabularyOptions};
@@ -19,7 +20,7 @@ pub fn run(args: BuildArgs) -> Result<(), Failure> {
         &args.vocabulary,
         args.quiet,
     )?;
-    corpus.save(&args.out)?;
+    save_corpus(&corpus, &args.out)?;
     if !args.quiet {
         println!("wrote {}", args.out.display());
     }

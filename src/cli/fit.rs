@@ -3,6 +3,7 @@
 
 use std::ops::ControlFlow;
 use std::path::{Path, PathBuf};
+use themata::model::corpus_file::load_corpus;
 
 use themata::evaluate::score;
 use themata::fitting::fit::{self, FitTiming};
@@ -53,7 +54,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
                 Failure::bad_input(anyhow::anyhow!("--out DIR is required when fitting a corpus"))
             })?;
             let plan = args.fit.resolve()?;
-            let corpus = Corpus::load(corpus_path)?;
+            let corpus = load_corpus(corpus_path)?;
             let (train, held) = split_for_holdout(corpus, &plan)?;
             heldout = held;
             (fit::start(train, &plan.settings)?, out, plan.threads)

@@ -37,11 +37,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     let staged = StagedFolder::begin(&out_dir)?;
 
     let (corpus, build_summary) = build_corpus(&inputs, &input, &tokenizer, &vocabulary, args.quiet)?;
-    let corpus_bytes = themata::model::format::encode(
-        themata::model::format::FileKind::Corpus,
-        &corpus,
-        &staged.path("corpus.bin"),
-    )?;
+    let corpus_bytes = themata::model::corpus_file::encode_corpus(&corpus, &staged.path("corpus.bin"))?;
     staged.write("corpus.bin", &corpus_bytes)?;
     let (model, timing, heldout) = fit_model(corpus, &plan, args.quiet)?;
     let mut summary = FitSummary::new(

@@ -3,6 +3,7 @@
 
 use std::io::Read;
 use std::path::{Path, PathBuf};
+use themata::model::corpus_file::load_corpus;
 
 use serde::Serialize;
 use themata::evaluate::coherence::CoherenceSettings;
@@ -131,7 +132,7 @@ fn heldout_documents(model: &Model, args: &ScoreArgs) -> Result<Vec<EncodedDocum
     if let [single] = args.heldout.as_slice()
         && is_corpus_file(single)
     {
-        let corpus = Corpus::load(single)?;
+        let corpus = load_corpus(single)?;
         return aligned(model, &corpus, single);
     }
     let tokenizer = Tokenizer::new(&model.corpus.tokenizer).map_err(Failure::bad_input)?;
@@ -183,7 +184,7 @@ fn coherence(model: &Model, args: &ScoreArgs) -> Result<CoherenceReport, Failure
     }
     let result = match &args.reference {
         Some(path) => {
-            let corpus = Corpus::load(path)?;
+            let corpus = load_corpus(path)?;
             let documents: Vec<Vec<u32>> = aligned(model, &corpus, path)?
                 .into_iter()
                 .map(|d| d.tokens)

@@ -1,10 +1,10 @@
 //! `themata sweep`: fit several numbers of topics and recommend one.
 
 use std::path::PathBuf;
+use themata::model::corpus_file::load_corpus;
 
 use themata::evaluate::k_search::{self, KSearchSettings};
 use themata::fitting::fit::PriorSpec;
-use themata::ingest::corpus::Corpus;
 use themata::model::format::{OUTPUT_MARKER, StagedFolder};
 use themata::settings::FitOptions;
 
@@ -68,7 +68,7 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
         ..FitOptions::default()
     }
     .resolve()?;
-    let corpus = Corpus::load(&args.corpus)?;
+    let corpus = load_corpus(&args.corpus)?;
     let settings = KSearchSettings {
         topics,
         seeds: (1..=args.seeds).collect(),

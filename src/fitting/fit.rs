@@ -13,9 +13,8 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use crate::fitting::priors::{self, CountHistogram, LearnSettings};
-use crate::fitting::sampler::{
-    self, BetaPrior, BlockKernel, CountState, MAX_TOKENS, MAX_TOPICS, Priors, ShardedSampler,
-};
+use crate::fitting::sampler::{self, BetaPrior, CountState, MAX_TOKENS, MAX_TOPICS, Priors, ShardedSampler};
+use crate::fitting::schedule::{SamplerChoice, Schedule};
 use crate::ingest::corpus::Corpus;
 use crate::model::{Model, Sample};
 
@@ -72,101 +71,6 @@ impl<'de> Deserialize<'de> for PriorSpec {
 pub const LEARN_START_ALPHA: f64 = 0.1;
 /// Starting value of a learned beta.
 pub const LEARN_START_BETA: f64 = 0.01;
-
-/// The sweep a fit runs.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
-pub enum SamplerKind {
-    /// The plain O(K) collapsed Gibbs sweep on one thread (the oracle).
-    Reference,
-    /// Exact draws with cached coefficients, O(K) per token, over the block grid in parallel.
-    Exact,
-    /// Metropolis-Hastings steps with O(1) document and word proposals,
-    /// over the block grid in parallel.
-    Metropolis,
-}
-
-impl SamplerKind {
-    /// The name used in options and summaries.
-    pub fn name(self) -> &'static str {
-        match self {
-            SamplerKind::Reference => "reference",
-            SamplerKind::Exact => "exact",
-            SamplerKind::Metropolis => "metropolis",
-        }
-    }
-
-    /// The block kernel, for the parallel samplers.
-    fn block_kernel(self) -> Option<BlockKernel> {
-        match self {
-            SamplerKind::Reference => None,
-            SamplerKind::Exact => Some(BlockKernel::Exact),
-            SamplerKind::Metropolis => Some(BlockKernel::Metropolis),
-        }
-    }
-}
-
-/// Up to this many topics `auto` picks the exact sampler, above it the
-/// Metropolis-Hastings one. The exact kernel's cost per token grows with K,
-/// the MH kernel's does not, but MH needs two to three times the sweeps to
-/// reach the same log-likelihood. On the bench corpora exact draws win at
-/// K = 100 (MH is no faster than the reference there in time to a given
-/// log-likelihood) and MH wins at K = 1000; 300 lies between the two and
-/// was not measured more finely.
-pub const EXACT_UP_TO_TOPICS: usize = 300;
-
-/// The sampler asked for: a kind, or the automatic choice.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Deserialize, clap::ValueEnum)]
-#[serde(rename_all = "kebab-case")]
-pub enum SamplerChoice {
-    /// `exact` up to 300 topics, `metropolis` above.
-    #[default]
-    Auto,
-    /// Exact draws with cached coefficients, parallel over blocks.
-    Exact,
-    /// Metropolis-Hastings with O(1) document and word proposals, parallel over blocks.
-    Metropolis,
-    /// The plain O(K) collapsed Gibbs sweep, on one thread.
-    Reference,
-}
-
-impl SamplerChoice {
-    /// The sampler used for `n_topics` topics.
-    pub fn resolve(self, n_topics: usize) -> SamplerKind {
-        match self {
-            SamplerChoice::Reference => SamplerKind::Reference,
-            SamplerChoice::Exact => SamplerKind::Exact,
-            SamplerChoice::Metropolis => SamplerKind::Metropolis,
-            SamplerChoice::Auto if n_topics <= EXACT_UP_TO_TOPICS => SamplerKind::Exact,
-            SamplerChoice::Auto => SamplerKind::Metropolis,
-        }
-    }
-}
-
-/// The part of the fit settings that governs sweeps after the start; stored
-/// in the model so that continuing and resuming follow the same plan.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-pub struct Schedule {
-    /// The sweep used.
-    pub sampler: SamplerKind,
-    /// Shards the documents are cut into for parallel sweeps (1 for the
-    /// reference sampler); fixed for the life of the model, so results never
-    /// depend on the thread count.
-    pub shards: u32,
-    /// Sweeps before samples are kept and priors learned.
-    pub burn_in: u64,
-    /// Learn alpha (asymmetric) from the data.
-    pub learn_alpha: bool,
-    /// Learn beta (symmetric) from the data.
-    pub learn_beta: bool,
-    /// Learn the priors every this many sweeps after burn-in.
-    pub learn_every: u64,
-    /// Posterior samples kept at the end of the run.
-    pub samples: u64,
-    /// Sweeps between kept samples.
-    pub lag: u64,
-    /// Record the log-likelihood every this many sweeps.
-    pub trace_every: u64,
-}
 
 /// Resolved fit settings.
 #[derive(Clone, Debug, PartialEq)]
@@ -409,12 +313,13 @@ pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Sched
         BetaPrior::Asymmetric(beta)
     };
     let sampler = settings.sampler.resolve(settings.n_topics);
-    let shards = match sampler.block_kernel() {
-        None => 1,
-        Some(kernel) => settings
+    let shards = if sampler.is_block_parallel() {
+        settings
             .shards
-            .unwrap_or_else(|| sampler::default_shards(corpus.n_tokens(), kernel))
-            .min(corpus.n_docs().max(1)),
+            .unwrap_or_else(|| sampler::default_shards(corpus.n_tokens(), sampler))
+            .min(corpus.n_docs().max(1))
+    } else {
+        1
     };
     let schedule = Schedule {
         sampler,
@@ -502,8 +407,11 @@ pub fn run_to_target(
     let doc_lengths = CountHistogram::from_counts(
         (0..model.corpus.n_docs()).map(|d| (model.corpus.offsets[d + 1] - model.corpus.offsets[d]) as u32),
     );
-    let mut sharded = (model.schedule.sampler.block_kernel())
-        .map(|kernel| ShardedSampler::new(&model.corpus, model.schedule.shards as usize, kernel));
+    let mut sharded = ShardedSampler::new(
+        &model.corpus,
+        model.schedule.shards as usize,
+        model.schedule.sampler,
+    );
     while model.iterations_done < model.target {
         let started = Instant::now();
         match &mut sharded {

@@ -6,3 +6,4 @@
 pub mod fit;
 pub mod priors;
 pub mod sampler;
+pub mod schedule;

@@ -4,17 +4,16 @@
 //! a framed corpus file.
 
 use std::collections::BTreeMap;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use serde::{Deserialize, Serialize};
 
 use crate::ingest::read::{self, Diagnostic, DiagnosticKind, Origin, ReadError, ReadOptions};
 use crate::ingest::tokenize::{TokenizeError, Tokenizer, TokenizerSettings};
 use crate::ingest::vocab::{PruneReport, PruneRules, VocabBuilder, Vocabulary};
-use crate::model::format::{self, FileKind, FormatError};
 
 /// What is known of one document besides its tokens.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct DocumentInfo {
     /// The document's id (file path, or the id field of its record).
     pub id: String,
@@ -25,7 +24,7 @@ pub struct DocumentInfo {
 }
 
 /// A tokenized corpus.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct Corpus {
     /// How the text was cut into tokens.
     pub tokenizer: TokenizerSettings,
@@ -76,42 +75,6 @@ impl Corpus {
             offsets,
             tokens,
         }
-    }
-
-    /// Checks the invariants a decoded corpus must hold.
-    fn validate(&self, path: &Path) -> Result<(), FormatError> {
-        let bad = |detail: &str| FormatError::Decode {
-            path: path.to_path_buf(),
-            detail: detail.to_string(),
-        };
-        if self.offsets.len() != self.documents.len() + 1 || self.offsets.first() != Some(&0) {
-            return Err(bad("document offsets do not match the document list"));
-        }
-        if self.offsets.windows(2).any(|pair| pair[0] > pair[1])
-            || *self.offsets.last().unwrap_or(&0) != self.tokens.len() as u64
-        {
-            return Err(bad(
-                "document offsets are not increasing or do not cover the tokens",
-            ));
-        }
-        let n_words = self.vocabulary.len() as u32;
-        if self.tokens.iter().any(|&word| word >= n_words) {
-            return Err(bad("a token refers to a word outside the vocabulary"));
-        }
-        Ok(())
-    }
-
-    /// Writes the corpus file crash-safely.
-    pub fn save(&self, path: &Path) -> Result<(), FormatError> {
-        format::write_file(FileKind::Corpus, self, path)
-    }
-
-    /// Reads and validates a corpus file.
-    pub fn load(path: &Path) -> Result<Corpus, FormatError> {
-        let mut corpus: Corpus = format::read_file(FileKind::Corpus, path)?;
-        corpus.vocabulary.rebuild_index();
-        corpus.validate(path)?;
-        Ok(corpus)
     }
 }
 

@@ -104,6 +104,10 @@ pub enum FormatError {
     BadChecksum { path: PathBuf },
     #[error("{path}: payload cannot be decoded ({detail}); the file is damaged, rebuild it")]
     Decode { path: PathBuf, detail: String },
+    #[error(
+        "{path}: the file decodes but its contents are inconsistent ({detail}); it is damaged or was not written by themata, rebuild it"
+    )]
+    Invalid { path: PathBuf, detail: String },
     #[error("{path}: cannot encode {kind} ({detail})")]
     Encode {
         path: PathBuf,
@@ -130,27 +134,45 @@ impl FormatError {
     }
 }
 
-/// Encodes `value` as a framed file image (header + payload).
+/// Encodes `value` as a framed file image (header + payload). The payload
+/// is encoded straight after room left for the header, so the image is the
+/// only copy of the encoded value.
 pub fn encode<T: Serialize>(kind: FileKind, value: &T, path: &Path) -> Result<Vec<u8>, FormatError> {
-    let payload = postcard::to_allocvec(value).map_err(|err| FormatError::Encode {
+    let mut bytes = postcard::to_extend(value, vec![0u8; HEADER_LEN]).map_err(|err| FormatError::Encode {
         path: path.to_path_buf(),
         kind: kind.name(),
         detail: err.to_string(),
     })?;
-    let mut bytes = Vec::with_capacity(HEADER_LEN + payload.len());
-    bytes.extend_from_slice(kind.magic());
-    bytes.extend_from_slice(&kind.current_version().to_le_bytes());
-    bytes.extend_from_slice(&(payload.len() as u64).to_le_bytes());
-    bytes.extend_from_slice(&crc32fast::hash(&payload).to_le_bytes());
-    bytes.extend_from_slice(&payload);
+    let payload_len = (bytes.len() - HEADER_LEN) as u64;
+    let checksum = crc32fast::hash(&bytes[HEADER_LEN..]);
+    bytes[..8].copy_from_slice(kind.magic());
+    bytes[8..12].copy_from_slice(&kind.current_version().to_le_bytes());
+    bytes[12..20].copy_from_slice(&payload_len.to_le_bytes());
+    bytes[20..24].copy_from_slice(&checksum.to_le_bytes());
     Ok(bytes)
+}
+
+/// Decodes a whole payload as `T`; bytes left over make it an error.
+pub fn decode_payload<T: DeserializeOwned>(payload: &[u8], path: &Path) -> Result<T, FormatError> {
+    let decode_error = |detail: String| FormatError::Decode {
+        path: path.to_path_buf(),
+        detail,
+    };
+    let (value, rest) = postcard::take_from_bytes(payload).map_err(|err| decode_error(err.to_string()))?;
+    if !rest.is_empty() {
+        return Err(decode_error(format!(
+            "{} bytes left over after the contents",
+            rest.len()
+        )));
+    }
+    Ok(value)
 }
 
 /// Checks the header of a framed file image and decodes its payload, for a
 /// kind with one readable version (kinds with several use [`decode_versioned`]).
 pub fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) -> Result<T, FormatError> {
     debug_assert_eq!(kind.oldest_version(), kind.current_version());
-    decode_versioned(kind, bytes, path, |_, payload| postcard::from_bytes(payload))
+    decode_versioned(kind, bytes, path, |_, payload| decode_payload(payload, path))
 }
 
 /// Checks the header of a framed file image (any version from
@@ -160,7 +182,7 @@ pub fn decode_versioned<T>(
     kind: FileKind,
     bytes: &[u8],
     path: &Path,
-    decode_payload: impl FnOnce(u32, &[u8]) -> Result<T, postcard::Error>,
+    decode_payload: impl FnOnce(u32, &[u8]) -> Result<T, FormatError>,
 ) -> Result<T, FormatError> {
     let path_buf = || path.to_path_buf();
     if bytes.len() < 8 || &bytes[..8] != kind.magic() {
@@ -199,10 +221,7 @@ pub fn decode_versioned<T>(
     if crc32fast::hash(payload) != checksum {
         return Err(FormatError::BadChecksum { path: path_buf() });
     }
-    decode_payload(version, payload).map_err(|err| FormatError::Decode {
-        path: path_buf(),
-        detail: err.to_string(),
-    })
+    decode_payload(version, payload)
 }
 
 /// Reads a framed file whole (see [`decode_versioned`]).

@@ -4,28 +4,33 @@
 //! read from it: topic-word and document-topic shares averaged over the
 //! samples, with credible intervals from their Dirichlet posteriors.
 //!
-//! **Invariant:** the in-memory [`Model`] and the on-disk `ModelFile` are
+//! The files live beside it: [`format`] frames every binary file and writes
+//! crash-safely, `file` holds the model file's own shapes and checks,
+//! [`corpus_file`] the corpus file's.
+//!
+//! **Invariant:** the in-memory [`Model`] and the on-disk shapes are
 //! separate types; sampler internals are not serialized directly.
 
+pub mod corpus_file;
+mod file;
 pub mod format;
 
 use std::path::Path;
 
 use rand_xoshiro::Xoshiro256PlusPlus;
-use serde::{Deserialize, Serialize};
 
 use crate::evaluate::uncertainty::{self, Interval, UncertaintyError};
-use crate::fitting::fit::{SamplerKind, Schedule};
-use crate::fitting::sampler::{BetaPrior, CountState, MAX_TOPICS, Priors, Topic};
+use crate::fitting::sampler::{CountState, Priors};
+use crate::fitting::schedule::Schedule;
 use crate::ingest::corpus::Corpus;
-use format::{FileKind, FormatError};
+use format::FormatError;
 
 /// Sparse rows of counts: for each row, `(column, count)` pairs with count > 0,
 /// columns increasing.
 pub type SparseRows = Vec<Vec<(u32, u32)>>;
 
 /// One posterior sample kept for the estimates.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct Sample {
     /// The sweep after which it was taken.
     pub iteration: u64,
@@ -87,106 +92,8 @@ pub struct Model {
     pub samples: Vec<Sample>,
 }
 
-/// The on-disk shape of a model file (format version 2).
-#[derive(Serialize, Deserialize)]
-struct ModelFile {
-    corpus: Corpus,
-    n_topics: u32,
-    priors: Priors,
-    assignments: Vec<Topic>,
-    /// Per topic: (word, tokens of that word in the topic) for the current state.
-    topic_word: SparseRows,
-    /// Per document: (topic, tokens of the document in the topic) for the current state.
-    doc_topic: SparseRows,
-    iterations_done: u64,
-    target: u64,
-    schedule: Schedule,
-    seed: u64,
-    rng: Xoshiro256PlusPlus,
-    trace: Vec<(u64, f64)>,
-    alpha_trace: Vec<(u64, Vec<f64>)>,
-    beta_trace: Vec<(u64, f64)>,
-    samples: Vec<Sample>,
-}
-
-/// The schedule of format version 1 (written by the reference sampler only).
-#[derive(Deserialize)]
-struct ScheduleV1 {
-    burn_in: u64,
-    learn_alpha: bool,
-    learn_beta: bool,
-    learn_every: u64,
-    samples: u64,
-    lag: u64,
-    trace_every: u64,
-}
-
-/// The on-disk shape of format version 1: 32-bit topic ids and no sampler
-/// or shard count in the schedule.
-#[derive(Deserialize)]
-struct ModelFileV1 {
-    corpus: Corpus,
-    n_topics: u32,
-    priors: Priors,
-    assignments: Vec<u32>,
-    topic_word: SparseRows,
-    doc_topic: SparseRows,
-    iterations_done: u64,
-    target: u64,
-    schedule: ScheduleV1,
-    seed: u64,
-    rng: Xoshiro256PlusPlus,
-    trace: Vec<(u64, f64)>,
-    alpha_trace: Vec<(u64, Vec<f64>)>,
-    beta_trace: Vec<(u64, f64)>,
-    samples: Vec<Sample>,
-}
-
-impl ModelFileV1 {
-    /// The same model in the current shape; it continues with the sampler
-    /// that wrote it. `None` when it has more topics than 16-bit ids hold.
-    fn upgrade(self) -> Option<ModelFile> {
-        if self.n_topics as usize > MAX_TOPICS {
-            return None;
-        }
-        let assignments = self
-            .assignments
-            .into_iter()
-            .map(|topic| Topic::try_from(topic).ok())
-            .collect::<Option<Vec<Topic>>>()?;
-        let old = self.schedule;
-        Some(ModelFile {
-            corpus: self.corpus,
-            n_topics: self.n_topics,
-            priors: self.priors,
-            assignments,
-            topic_word: self.topic_word,
-            doc_topic: self.doc_topic,
-            iterations_done: self.iterations_done,
-            target: self.target,
-            schedule: Schedule {
-                sampler: SamplerKind::Reference,
-                shards: 1,
-                burn_in: old.burn_in,
-                learn_alpha: old.learn_alpha,
-                learn_beta: old.learn_beta,
-                learn_every: old.learn_every,
-                samples: old.samples,
-                lag: old.lag,
-                trace_every: old.trace_every,
-            },
-            seed: self.seed,
-            rng: self.rng,
-            trace: self.trace,
-            alpha_trace: self.alpha_trace,
-            beta_trace: self.beta_trace,
-            samples: self.samples,
-        })
-    }
-}
-
 /// The topic-word and document-topic counts of a state as sparse rows.
-fn sparse_counts(state: &CountState, corpus: &Corpus) -> (SparseRows, SparseRows) {
+pub(crate) fn sparse_counts(state: &CountState, corpus: &Corpus) -> (SparseRows, SparseRows) {
     let mut topic_word: SparseRows = vec![Vec::new(); state.n_topics];
     for word_idx in 0..state.n_words {
         for (topic, count) in state.word_topic.row_pairs(word_idx) {
@@ -392,123 +299,18 @@ impl Model {
 
     /// Writes the model file crash-safely.
     pub fn save(&self, path: &Path) -> Result<(), FormatError> {
-        format::write_file(FileKind::Model, &self.to_file(), path)
+        file::save(self, path)
     }
 
     /// The encoded model file image (for staged writes).
     pub fn encode(&self, path: &Path) -> Result<Vec<u8>, FormatError> {
-        format::encode(FileKind::Model, &self.to_file(), path)
+        file::encode(self, path)
     }
 
-    fn to_file(&self) -> ModelFile {
-        let (topic_word, doc_topic) = sparse_counts(&self.state, &self.corpus);
-        ModelFile {
-            corpus: self.corpus.clone(),
-            n_topics: self.n_topics() as u32,
-            priors: self.priors.clone(),
-            assignments: self.state.assignments.clone(),
-            topic_word,
-            doc_topic,
-            iterations_done: self.iterations_done,
-            target: self.target,
-            schedule: self.schedule.clone(),
-            seed: self.seed,
-            rng: self.rng.clone(),
-            trace: self.trace.clone(),
-            alpha_trace: self.alpha_trace.clone(),
-            beta_trace: self.beta_trace.clone(),
-            samples: self.samples.clone(),
-        }
-    }
-
-    /// Reads a model file and checks that its counts agree with its assignments.
+    /// Reads a model file (format 1 or 2) and checks everything in it: the
+    /// corpus, the priors, the assignments against the stored counts, the
+    /// schedule, the samples (see `file`).
     pub fn load(path: &Path) -> Result<Model, FormatError> {
-        let bytes = format::read_bytes(path)?;
-        let mut too_many_topics = false;
-        let file: ModelFile = format::decode_versioned(FileKind::Model, &bytes, path, |version, payload| {
-            if version == 1 {
-                let old: ModelFileV1 = postcard::from_bytes(payload)?;
-                match old.upgrade() {
-                    Some(file) => Ok(file),
-                    None => {
-                        too_many_topics = true;
-                        Err(postcard::Error::DeserializeBadEncoding)
-                    }
-                }
-            } else {
-                postcard::from_bytes(payload)
-            }
-        })
-        .map_err(|err| match err {
-            FormatError::Decode { path, .. } if too_many_topics => FormatError::Decode {
-                path,
-                detail: format!(
-                    "the model has more than {MAX_TOPICS} topics, which this version cannot load"
-                ),
-            },
-            other => other,
-        })?;
-        let mut corpus = file.corpus;
-        corpus.vocabulary.rebuild_index();
-        let bad = |detail: &str| FormatError::Decode {
-            path: path.to_path_buf(),
-            detail: detail.to_string(),
-        };
-        let n_topics = file.n_topics as usize;
-        let n_words = corpus.vocabulary.len();
-        let priors_fit = |priors: &Priors| {
-            priors.alpha.len() == n_topics
-                && match &priors.beta {
-                    BetaPrior::Symmetric(_) => true,
-                    BetaPrior::Asymmetric(values) => values.len() == n_words,
-                }
-        };
-        if n_topics == 0
-            || !priors_fit(&file.priors)
-            || file.assignments.len() != corpus.n_tokens()
-            || n_topics > MAX_TOPICS
-            || file.assignments.iter().any(|&topic| topic as usize >= n_topics)
-            || file.schedule.shards == 0
-        {
-            return Err(bad("topic assignments do not fit the model's topics and tokens"));
-        }
-        let samples_fit = file.samples.iter().all(|s| {
-            priors_fit(&s.priors)
-                && s.topic_word.len() == n_topics
-                && s.doc_topic.len() == corpus.n_docs()
-                && s.topic_totals.len() == n_topics
-                && s.topic_word
-                    .iter()
-                    .flatten()
-                    .all(|&(w, _)| (w as usize) < n_words)
-                && s.doc_topic
-                    .iter()
-                    .flatten()
-                    .all(|&(k, _)| (k as usize) < n_topics)
-        });
-        if !samples_fit {
-            return Err(bad(
-                "a posterior sample does not fit the model's topics, words and documents",
-            ));
-        }
-        let state = CountState::from_assignments(&corpus, n_topics, file.assignments);
-        let (topic_word, doc_topic) = sparse_counts(&state, &corpus);
-        if topic_word != file.topic_word || doc_topic != file.doc_topic {
-            return Err(bad("stored counts disagree with the topic assignments"));
-        }
-        Ok(Model {
-            corpus,
-            priors: file.priors,
-            state,
-            iterations_done: file.iterations_done,
-            target: file.target,
-            schedule: file.schedule,
-            seed: file.seed,
-            rng: file.rng,
-            trace: file.trace,
-            alpha_trace: file.alpha_trace,
-            beta_trace: file.beta_trace,
-            samples: file.samples,
-        })
+        file::load(path)
     }
 }

@@ -16,8 +16,8 @@ use std::time::Instant;
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
-use crate::fitting::fit::{SamplerChoice, SamplerKind};
-use crate::fitting::sampler::{self, BetaPrior, BlockKernel, CountState, Priors, ShardedSampler};
+use crate::fitting::sampler::{self, BetaPrior, CountState, Priors, ShardedSampler};
+use crate::fitting::schedule::{SamplerChoice, SamplerKind};
 use crate::ingest::corpus::Corpus;
 use crate::testbed::memory;
 use crate::testbed::synthetic::{self, UrnCorpusSettings};
@@ -164,7 +164,6 @@ struct Setup {
     corpus: Corpus,
     priors: Priors,
     fast_sampler: SamplerKind,
-    kernel: BlockKernel,
     start: CountState,
 }
 
@@ -175,25 +174,22 @@ impl Setup {
             case.tokens, case.words, case.topics
         ));
         let corpus = corpus_of(case);
-        let (fast_sampler, kernel) = match SamplerChoice::Auto.resolve(case.topics) {
-            SamplerKind::Metropolis => (SamplerKind::Metropolis, BlockKernel::Metropolis),
-            _ => (SamplerKind::Exact, BlockKernel::Exact),
-        };
+        let fast_sampler = SamplerChoice::Auto.resolve(case.topics);
         let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
         let start = CountState::random(&corpus, case.topics, &mut init_rng);
         Setup {
             priors: priors_of(case),
             corpus,
             fast_sampler,
-            kernel,
             start,
         }
     }
 
     /// A driver with the default shard count for this corpus and kernel.
     fn engine(&self) -> ShardedSampler {
-        let shards = sampler::default_shards(self.corpus.n_tokens(), self.kernel);
-        ShardedSampler::new(&self.corpus, shards, self.kernel)
+        let shards = sampler::default_shards(self.corpus.n_tokens(), self.fast_sampler);
+        ShardedSampler::new(&self.corpus, shards, self.fast_sampler)
+            .expect("auto picks a block-parallel sampler")
     }
 }
 

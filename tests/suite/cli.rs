@@ -3,6 +3,7 @@
 
 use predicates::prelude::*;
 use serde_json::Value;
+use themata::model::corpus_file::save_corpus;
 
 use crate::util::{Scratch, themata};
 
@@ -349,6 +350,25 @@ fn show_refuses_bad_inputs() {
         .stderr(predicate::str::contains("not a themata model file"));
 }
 
+#[test]
+fn a_model_with_a_valid_checksum_and_inconsistent_contents_is_bad_input() {
+    // Source: common practice — contents are checked, not only the checksum:
+    // a token moved to another topic without its counts is written with a
+    // correct checksum, and loading it must fail cleanly with exit 2.
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let path = scratch.path("model/model.bin");
+    let mut model = themata::model::Model::load(&path).unwrap();
+    model.state.assignments[0] = (model.state.assignments[0] + 1) % 3;
+    model.save(&path).unwrap();
+    themata(scratch.root())
+        .args(["show", "model"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("contents are inconsistent"))
+        .stderr(predicate::str::contains("stored counts disagree with the topic assignments"));
+}
+
 fn run_config(scratch: &Scratch, extra: &str) -> std::path::PathBuf {
     text_folder(scratch);
     scratch.write(
@@ -543,7 +563,7 @@ fn killed_run_resumes_to_the_same_bytes() {
     // give the model an uninterrupted run gives.
     let scratch = Scratch::new();
     let data = themata::testbed::synthetic::bars(1500, 60, 1.0, 9);
-    data.corpus.save(&scratch.path("bars.bin")).unwrap();
+    save_corpus(&data.corpus, &scratch.path("bars.bin")).unwrap();
     let args = [
         "--topics",
         "10",

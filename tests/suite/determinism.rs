@@ -1,7 +1,8 @@
 //! Same inputs and seed give the same model, bit for bit, whatever the
 //! number of threads.
 
-use themata::fitting::fit::{FitSettings, PriorSpec, SamplerChoice, fit};
+use themata::fitting::fit::{FitSettings, PriorSpec, fit};
+use themata::fitting::schedule::SamplerChoice;
 use themata::testbed::synthetic;
 
 fn encoded_model(seed: u64, threads: usize, sampler: SamplerChoice) -> Vec<u8> {

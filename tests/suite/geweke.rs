@@ -7,9 +7,8 @@
 
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
-use themata::fitting::sampler::{
-    BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, sweep_reference,
-};
+use themata::fitting::sampler::{BetaPrior, CountState, Priors, ShardedSampler, Topic, sweep_reference};
+use themata::fitting::schedule::SamplerKind;
 use themata::ingest::corpus::Corpus;
 use themata::ingest::vocab::Vocabulary;
 use themata::testbed::synthetic::{categorical, dirichlet};
@@ -182,23 +181,23 @@ fn reference(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut
 /// A block sampler on a grid of one block (exact sequential sweeps), its
 /// sweep number and seed drawn from the test's stream.
 fn block_sweep(
-    kernel: BlockKernel,
+    kernel: SamplerKind,
     state: &mut CountState,
     corpus: &Corpus,
     priors: &Priors,
     rng: &mut Xoshiro256PlusPlus,
 ) {
     use rand::Rng;
-    let mut engine = ShardedSampler::new(corpus, 1, kernel);
+    let mut engine = ShardedSampler::new(corpus, 1, kernel).expect("a block-parallel sampler");
     engine.sweep(state, corpus, priors, rng.next_u64(), rng.next_u64());
 }
 
 fn metropolis(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut Xoshiro256PlusPlus) {
-    block_sweep(BlockKernel::Metropolis, state, corpus, priors, rng);
+    block_sweep(SamplerKind::Metropolis, state, corpus, priors, rng);
 }
 
 fn exact(state: &mut CountState, corpus: &Corpus, priors: &Priors, rng: &mut Xoshiro256PlusPlus) {
-    block_sweep(BlockKernel::Exact, state, corpus, priors, rng);
+    block_sweep(SamplerKind::Exact, state, corpus, priors, rng);
 }
 
 #[test]

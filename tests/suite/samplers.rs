@@ -6,10 +6,11 @@ use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 use statrs::function::gamma::ln_gamma;
 use themata::evaluate::score::{self, ScoreSettings};
-use themata::fitting::fit::{FitSettings, SamplerChoice, fit};
+use themata::fitting::fit::{FitSettings, fit};
 use themata::fitting::sampler::{
-    self, BetaPrior, BlockKernel, CountState, Priors, ShardedSampler, Topic, sweep_reference,
+    self, BetaPrior, CountState, Priors, ShardedSampler, Topic, sweep_reference,
 };
+use themata::fitting::schedule::{SamplerChoice, SamplerKind};
 use themata::ingest::corpus::Corpus;
 use themata::ingest::vocab::Vocabulary;
 use themata::testbed::synthetic;
@@ -86,7 +87,7 @@ fn exact_posterior(corpus: &Corpus, priors: &Priors, n_topics: usize) -> Vec<f64
 #[derive(Clone, Copy, Debug)]
 enum Which {
     Reference,
-    Block(BlockKernel),
+    Block(SamplerKind),
 }
 
 /// How often each assignment is visited in `sweeps` sweeps (after 100 of burn-in).
@@ -96,9 +97,9 @@ fn visit_frequencies(which: Which, priors: &Priors, n_topics: usize, sweeps: usi
     let mut state = CountState::random(&corpus, n_topics, &mut rng);
     let kernel = match which {
         Which::Block(kernel) => kernel,
-        Which::Reference => BlockKernel::Exact,
+        Which::Reference => SamplerKind::Exact,
     };
-    let mut engine = ShardedSampler::new(&corpus, 1, kernel);
+    let mut engine = ShardedSampler::new(&corpus, 1, kernel).expect("a block-parallel sampler");
     let mut visits = vec![0.0; n_topics.pow(corpus.n_tokens() as u32)];
     for sweep in 0..sweeps + 100 {
         match which {
@@ -118,8 +119,8 @@ fn check_against_enumeration(priors: &Priors, n_topics: usize) {
     let sweeps = 200_000;
     for which in [
         Which::Reference,
-        Which::Block(BlockKernel::Exact),
-        Which::Block(BlockKernel::Metropolis),
+        Which::Block(SamplerKind::Exact),
+        Which::Block(SamplerKind::Metropolis),
     ] {
         let observed = visit_frequencies(which, priors, n_topics, sweeps, 17);
         let worst = exact
@@ -190,9 +191,9 @@ fn log_likelihood_path(corpus: &Corpus, which: Which, shards: usize, sweeps: usi
     let mut state = CountState::random(corpus, n_topics, &mut rng);
     let kernel = match which {
         Which::Block(kernel) => kernel,
-        Which::Reference => BlockKernel::Exact,
+        Which::Reference => SamplerKind::Exact,
     };
-    let mut engine = ShardedSampler::new(corpus, shards, kernel);
+    let mut engine = ShardedSampler::new(corpus, shards, kernel).expect("a block-parallel sampler");
     (1..=sweeps)
         .map(|sweep| {
             match which {
@@ -222,7 +223,7 @@ fn block_samplers_follow_the_reference_log_likelihood_path() {
     let settled = |paths: &[Vec<f64>]| mean(&paths.iter().map(|p| mean(&p[150..])).collect::<Vec<_>>());
     let reference = paths(Which::Reference);
     let level = settled(&reference);
-    for kernel in [BlockKernel::Exact, BlockKernel::Metropolis] {
+    for kernel in [SamplerKind::Exact, SamplerKind::Metropolis] {
         let fast = paths(Which::Block(kernel));
         let relative = (settled(&fast) - level) / level.abs();
         eprintln!(
@@ -246,7 +247,7 @@ fn block_samplers_follow_the_reference_log_likelihood_path() {
             .collect()
     };
     let reference = early(Which::Reference);
-    let exact = early(Which::Block(BlockKernel::Exact));
+    let exact = early(Which::Block(SamplerKind::Exact));
     for sweep in [3, 10] {
         let values = |paths: &[Vec<f64>]| paths.iter().map(|p| p[sweep - 1]).collect::<Vec<f64>>();
         let (a, b) = (values(&reference), values(&exact));

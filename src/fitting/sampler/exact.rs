@@ -22,8 +22,8 @@
 
 use rand::RngExt;
 
+use super::block::{Block, BlockContext, BlockKernel, block_stream};
 use super::prefetch::prefetch;
-use super::sharded::{Block, BlockContext, Workspace, block_stream};
 use super::{Priors, Topic};
 
 /// Weights summed together before the draw scans them.
@@ -48,6 +48,8 @@ pub struct ExactKernel<'a> {
 /// Scratch space of the exact kernel (per thread, reused across blocks).
 #[derive(Debug, Default)]
 pub struct ExactScratch {
+    /// Dense topic counts of the document being sampled (zero between documents).
+    doc_counts: Vec<u32>,
     /// `1 / (n_k + b0)` from the block's view of the totals.
     inverse_total: Vec<f64>,
     /// `c_k = (n_dk + alpha_k) / (n_k + b0)` for the current document.
@@ -62,6 +64,22 @@ pub struct ExactScratch {
     distinct: Vec<Topic>,
 }
 
+impl ExactKernel<'_> {
+    /// Tokens per shard aimed at when the shard count is chosen
+    /// automatically. Each document is visited once per epoch, and a visit
+    /// costs a pass over the document; that weighs more against this
+    /// kernel's cheap tokens at small K than against the MH kernel's, so its
+    /// shards are larger.
+    pub const TOKENS_PER_SHARD: usize = 1 << 19;
+
+    /// The expected cost of a word with `tokens` tokens in `documents`
+    /// documents: a full O(K) pass for the first token of a document's run
+    /// of the word, an O(1) update for each repeat, so `df_w + n_w / 8`.
+    pub fn word_cost(tokens: u64, documents: u64) -> u64 {
+        documents + tokens.div_ceil(8)
+    }
+}
+
 impl<'a> ExactKernel<'a> {
     /// The kernel for one sweep with these priors.
     pub fn new(priors: &'a Priors, n_topics: usize, n_words: usize) -> ExactKernel<'a> {
@@ -71,11 +89,21 @@ impl<'a> ExactKernel<'a> {
             n_topics,
         }
     }
+}
+
+impl BlockKernel for ExactKernel<'_> {
+    type Scratch = ExactScratch;
+    // The word-major list is read only by the Metropolis-Hastings kernel.
+    const USES_WORD_LIST: bool = false;
 
     /// Samples every token of `block` once, document by document.
-    pub fn sample_block(&self, context: &BlockContext<'_>, block: Block<'_>, workspace: &mut Workspace) {
-        // The word-major list is read only by the Metropolis-Hastings
-        // kernel, so this one leaves it alone.
+    fn sample_block(
+        &self,
+        context: &BlockContext<'_>,
+        block: Block<'_>,
+        topic_totals: &mut [u64],
+        exact: &mut ExactScratch,
+    ) {
         let Block {
             index,
             shard,
@@ -84,12 +112,6 @@ impl<'a> ExactKernel<'a> {
             mut rows,
             ..
         } = block;
-        let Workspace {
-            topic_totals,
-            doc_counts,
-            exact,
-            ..
-        } = workspace;
         let n_topics = self.n_topics;
         let n_chunks = n_topics.div_ceil(CHUNK);
         exact.inverse_total.resize(n_topics, 0.0);
@@ -97,7 +119,9 @@ impl<'a> ExactKernel<'a> {
         exact.weights.resize(n_chunks * CHUNK, 0.0);
         exact.chunk_sums.resize(n_chunks, 0.0);
         exact.word_row.resize(n_topics, 0);
+        exact.doc_counts.resize(n_topics, 0);
         let ExactScratch {
+            doc_counts,
             inverse_total,
             coefficient,
             weights,
@@ -108,7 +132,7 @@ impl<'a> ExactKernel<'a> {
         // Plain slices, so that the hot loops need not reload vector headers.
         let (inverse_total, coefficient) = (inverse_total.as_mut_slice(), coefficient.as_mut_slice());
         let (weights, chunk_sums) = (weights.as_mut_slice(), chunk_sums.as_mut_slice());
-        let word_row = word_row.as_mut_slice();
+        let (word_row, doc_counts) = (word_row.as_mut_slice(), doc_counts.as_mut_slice());
         // Weights past K stay zero: they pad the last chunk.
         weights.fill(0.0);
         let beta_sum = self.beta_sum;

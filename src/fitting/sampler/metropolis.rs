@@ -29,9 +29,9 @@ use rand::RngExt;
 use rand_distr::Distribution;
 use rand_distr::weighted::WeightedAliasIndex;
 
+use super::block::{Block, BlockContext, BlockKernel, WordRecord, block_stream, pack_entry, unpack_entry};
 use super::counts::{RowLayout, RowsMut};
 use super::prefetch::prefetch;
-use super::sharded::{Block, BlockContext, WordRecord, Workspace, block_stream, pack_entry, unpack_entry};
 use super::{Priors, Topic};
 
 /// Document-then-word proposal pairs per token and sweep. Measured on a
@@ -112,6 +112,32 @@ pub struct MetropolisKernel<'a> {
     n_topics: usize,
 }
 
+/// Scratch space of the Metropolis-Hastings kernel (per thread, reused
+/// across blocks).
+#[derive(Debug, Default)]
+pub struct MetropolisScratch {
+    /// Dense topic counts of the document being sampled (zero between documents).
+    doc_counts: Vec<u32>,
+    /// The current block's token positions.
+    positions: Vec<u32>,
+}
+
+impl MetropolisKernel<'_> {
+    /// Tokens per shard aimed at when the shard count is chosen
+    /// automatically (smaller shards than the exact kernel's: see
+    /// `ExactKernel::TOKENS_PER_SHARD`).
+    pub const TOKENS_PER_SHARD: usize = 1 << 18;
+
+    /// The expected cost of a word with `tokens` tokens in `documents`
+    /// documents: about the same work per token as the exact kernel's
+    /// repeats, but a token of a rare word misses the cache for its row and
+    /// word list, which a run of a frequent word keeps warm; measured per
+    /// token, blocks of rare words took about twice as long, so `n_w + df_w`.
+    pub fn word_cost(tokens: u64, documents: u64) -> u64 {
+        documents + tokens
+    }
+}
+
 impl<'a> MetropolisKernel<'a> {
     /// The kernel for one sweep with these priors.
     pub fn new(priors: &'a Priors, n_topics: usize, n_words: usize) -> MetropolisKernel<'a> {
@@ -132,6 +158,60 @@ impl<'a> MetropolisKernel<'a> {
         }
     }
 
+    /// Draws the proposals of a token of `word` in document `doc`: for each
+    /// cycle, a uniformly chosen token of the document with probability
+    /// `n_d / (n_d + a0)`, else a draw from alpha; and a uniformly chosen
+    /// token of the word with probability `n_w / (n_w + K beta_w)`, else a
+    /// uniform topic. Which token is chosen does not depend on the state.
+    #[inline]
+    fn plan(&self, records: &[WordRecord], word: u32, doc: DocSpan, rng: &mut impl rand::Rng) -> Plan {
+        let doc_len = doc.len as f64;
+        let doc_scale = doc_len + self.alpha_sum;
+        let mut doc_picks = [DocPick::Prior(0); CYCLES_PER_TOKEN];
+        for pick in &mut doc_picks {
+            let draw = rng.random::<f64>() * doc_scale;
+            *pick = if draw < doc_len {
+                DocPick::Token(doc.start + draw as usize)
+            } else {
+                DocPick::Prior(self.draw_from_alpha(rng))
+            };
+        }
+        let record = records[word as usize];
+        let beta = self.priors.beta_of(word as usize);
+        let word_len = record.len as f64;
+        let scale = word_len + self.n_topics as f64 * beta;
+        let mut word_picks = [WordPick::Uniform(0); CYCLES_PER_TOKEN];
+        for pick in &mut word_picks {
+            let draw = rng.random::<f64>() * scale;
+            *pick = if draw < word_len {
+                WordPick::Entry(record.first + draw as usize)
+            } else {
+                // Given `draw >= n_w`, `(draw - n_w) / beta` is uniform on [0, K).
+                let topic = ((draw - word_len) / beta) as usize;
+                WordPick::Uniform(topic.min(self.n_topics - 1) as Topic)
+            };
+        }
+        Plan {
+            row: record.row,
+            beta,
+            doc_picks,
+            word_picks,
+        }
+    }
+
+    #[inline]
+    fn draw_from_alpha(&self, rng: &mut impl rand::Rng) -> Topic {
+        match &self.alpha_draw {
+            AlphaDraw::Uniform => rng.random_range(0..self.n_topics as u32) as Topic,
+            AlphaDraw::Alias(table) => table.sample(rng) as Topic,
+        }
+    }
+}
+
+impl BlockKernel for MetropolisKernel<'_> {
+    type Scratch = MetropolisScratch;
+    const USES_WORD_LIST: bool = true;
+
     /// Samples every token of `block` once, document by document.
     ///
     /// The loop is pipelined: the word record of the token [`RECORD_AHEAD`]
@@ -144,7 +224,13 @@ impl<'a> MetropolisKernel<'a> {
     /// the order of the random stream. Prefetching the document proposals'
     /// counts made a sweep about 10% faster at K = 1000 (1M tokens, one
     /// thread, medians of alternating runs).
-    pub fn sample_block(&self, context: &BlockContext<'_>, block: Block<'_>, workspace: &mut Workspace) {
+    fn sample_block(
+        &self,
+        context: &BlockContext<'_>,
+        block: Block<'_>,
+        topic_totals: &mut [u64],
+        scratch: &mut MetropolisScratch,
+    ) {
         let Block {
             index,
             shard,
@@ -154,12 +240,11 @@ impl<'a> MetropolisKernel<'a> {
             first_slot,
             mut rows,
         } = block;
-        let Workspace {
-            topic_totals,
+        scratch.doc_counts.resize(self.n_topics, 0);
+        let MetropolisScratch {
             doc_counts,
             positions,
-            ..
-        } = workspace;
+        } = scratch;
         let mut rng = block_stream(context.seed, context.iteration, index);
         let records = context.records;
         let words = context.words;
@@ -303,55 +388,6 @@ impl<'a> MetropolisKernel<'a> {
         }
         for &topic in &topics[doc_start - first_token..doc_end - first_token] {
             doc_counts[topic as usize] -= 1;
-        }
-    }
-
-    /// Draws the proposals of a token of `word` in document `doc`: for each
-    /// cycle, a uniformly chosen token of the document with probability
-    /// `n_d / (n_d + a0)`, else a draw from alpha; and a uniformly chosen
-    /// token of the word with probability `n_w / (n_w + K beta_w)`, else a
-    /// uniform topic. Which token is chosen does not depend on the state.
-    #[inline]
-    fn plan(&self, records: &[WordRecord], word: u32, doc: DocSpan, rng: &mut impl rand::Rng) -> Plan {
-        let doc_len = doc.len as f64;
-        let doc_scale = doc_len + self.alpha_sum;
-        let mut doc_picks = [DocPick::Prior(0); CYCLES_PER_TOKEN];
-        for pick in &mut doc_picks {
-            let draw = rng.random::<f64>() * doc_scale;
-            *pick = if draw < doc_len {
-                DocPick::Token(doc.start + draw as usize)
-            } else {
-                DocPick::Prior(self.draw_from_alpha(rng))
-            };
-        }
-        let record = records[word as usize];
-        let beta = self.priors.beta_of(word as usize);
-        let word_len = record.len as f64;
-        let scale = word_len + self.n_topics as f64 * beta;
-        let mut word_picks = [WordPick::Uniform(0); CYCLES_PER_TOKEN];
-        for pick in &mut word_picks {
-            let draw = rng.random::<f64>() * scale;
-            *pick = if draw < word_len {
-                WordPick::Entry(record.first + draw as usize)
-            } else {
-                // Given `draw >= n_w`, `(draw - n_w) / beta` is uniform on [0, K).
-                let topic = ((draw - word_len) / beta) as usize;
-                WordPick::Uniform(topic.min(self.n_topics - 1) as Topic)
-            };
-        }
-        Plan {
-            row: record.row,
-            beta,
-            doc_picks,
-            word_picks,
-        }
-    }
-
-    #[inline]
-    fn draw_from_alpha(&self, rng: &mut impl rand::Rng) -> Topic {
-        match &self.alpha_draw {
-            AlphaDraw::Uniform => rng.random_range(0..self.n_topics as u32) as Topic,
-            AlphaDraw::Alias(table) => table.sample(rng) as Topic,
         }
     }
 }

@@ -7,6 +7,7 @@
 //!
 //! This module does no I/O.
 
+mod block;
 mod counts;
 mod exact;
 mod metropolis;
@@ -14,13 +15,11 @@ mod prefetch;
 mod reference;
 mod sharded;
 
+pub use block::{BlockKernel, block_stream, splitmix64};
 pub use counts::{RowLayout, RowsMut, WordTopicCounts};
 pub use metropolis::CYCLES_PER_TOKEN;
 pub use reference::{conditional, sweep_reference};
-pub use sharded::{
-    BlockKernel, MAX_TOKENS, Shard, ShardedSampler, block_stream, default_shards, plan_shards,
-    plan_word_groups,
-};
+pub use sharded::{MAX_TOKENS, Shard, ShardedSampler, default_shards, plan_shards, plan_word_groups};
 
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
