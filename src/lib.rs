@@ -33,3 +33,10 @@ pub mod model;
 pub mod report;
 pub mod settings;
 pub mod testbed;
+
+/// The worker pool of `threads` threads that a command runs its parallel
+/// work on (the one place pools are built, so every command sizes them
+/// alike). Results never depend on the thread count.
+pub fn thread_pool(threads: usize) -> Result<rayon::ThreadPool, rayon::ThreadPoolBuildError> {
+    rayon::ThreadPoolBuilder::new().num_threads(threads).build()
+}

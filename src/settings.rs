@@ -323,6 +323,15 @@ overlay!(FitOptions {
     shards
 });
 
+/// The worker threads asked for, or every core when none is given.
+pub fn resolve_threads(threads: Option<usize>) -> Result<usize, SettingsError> {
+    match threads {
+        Some(0) => Err(invalid("threads", "must be at least 1")),
+        Some(threads) => Ok(threads),
+        None => Ok(std::thread::available_parallelism().map_or(1, |n| n.get())),
+    }
+}
+
 /// Fit settings plus the thread count (which never changes the result) and
 /// the held-out fraction.
 #[derive(Clone, Debug, PartialEq)]
@@ -355,11 +364,7 @@ impl FitOptions {
                 format!("must be smaller than iterations ({iterations}), got {burn_in}"),
             ));
         }
-        let threads = match self.threads {
-            Some(0) => return Err(invalid("threads", "must be at least 1")),
-            Some(threads) => threads,
-            None => std::thread::available_parallelism().map_or(1, |n| n.get()),
-        };
+        let threads = resolve_threads(self.threads)?;
         let trace_every = self.trace_every.unwrap_or(10);
         if trace_every == 0 {
             return Err(invalid("trace_every", "must be at least 1"));

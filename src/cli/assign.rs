@@ -8,9 +8,9 @@ use themata::evaluate::score::{self, EncodedDocument, Placement};
 use themata::ingest::read::{self, Diagnostic};
 use themata::ingest::tokenize::Tokenizer;
 
-use super::fit::load_model;
-use super::show::parse_level;
+use super::common::parse_level;
 use super::{Failure, RecordOptions};
+use themata::model::folder::load_model;
 
 /// Documents folded in together (in parallel) before their lines are written;
 /// bounds memory whatever the length of the stream.

@@ -1,32 +1,18 @@
 //! `themata fit`: corpus file in, model folder out; also continuing a saved
 //! model and resuming a run from its checkpoint.
 
-use std::ops::ControlFlow;
-use std::path::{Path, PathBuf};
-use themata::model::corpus_file::load_corpus;
+use std::path::PathBuf;
 
-use themata::evaluate::score;
-use themata::fitting::fit::{self, FitTiming};
-use themata::ingest::corpus::Corpus;
+use themata::fitting::fit;
 use themata::model::Model;
-use themata::model::format::{OUTPUT_MARKER, StagedFolder};
-use themata::report::FitSummary;
-use themata::settings::{FitOptions, FitPlan};
+use themata::model::corpus_file::load_corpus;
+use themata::model::folder::{self, checkpoint_path};
+use themata::model::format::StagedFolder;
+use themata::model::summary::FitSummary;
+use themata::settings::{self, FitOptions};
 
-use super::progress::SweepProgress;
+use super::common::{print_fit_line, sample, score_holdout, split_for_holdout};
 use super::{Failure, FitArgs};
-
-/// The model file inside a model folder.
-pub const MODEL_FILE: &str = "model.bin";
-
-/// Where the checkpoint of a run writing `out` lives: a file beside it.
-pub fn checkpoint_path(out: &Path) -> PathBuf {
-    let name = out
-        .file_name()
-        .map(|name| name.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "model".into());
-    out.with_file_name(format!("{name}.checkpoint"))
-}
 
 /// How `fit` was asked to start.
 enum Start {
@@ -66,12 +52,12 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
                     "--continue needs --iterations N (the sweeps to add)"
                 ))
             })?;
-            let mut model = load_model(dir)?;
+            let mut model = folder::load_model(dir)?;
             fit::extend(&mut model, sweeps)?;
             (
                 model,
                 args.out.clone().unwrap_or_else(|| dir.clone()),
-                threads_of(&args.fit)?,
+                settings::resolve_threads(args.fit.threads)?,
             )
         }
         Start::Resume(dir) => {
@@ -88,7 +74,11 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
                     checkpoint.display()
                 )));
             }
-            (Model::load(&checkpoint)?, dir.clone(), threads_of(&args.fit)?)
+            (
+                Model::load(&checkpoint)?,
+                dir.clone(),
+                settings::resolve_threads(args.fit.threads)?,
+            )
         }
     };
     // Refuse an unusable output folder before sampling, not after.
@@ -105,14 +95,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     if let Some(held) = &heldout {
         summary = summary.with_heldout(score_holdout(&model, held, threads)?);
     }
-    let staged = StagedFolder::begin(&out)?;
-    stage_model(&staged, &model, &summary)?;
-    staged.commit()?;
-    let checkpoint = checkpoint_path(&out);
-    if checkpoint.exists() {
-        std::fs::remove_file(&checkpoint)
-            .map_err(|err| Failure::system(anyhow::anyhow!("{}: {err}", checkpoint.display())))?;
-    }
+    folder::write_model_folder(&out, &model, &summary)?;
     if !args.quiet {
         print_fit_line(&summary, &out);
     }
@@ -137,169 +120,4 @@ fn refuse_changed_settings(options: &FitOptions) -> Result<(), Failure> {
         )));
     }
     Ok(())
-}
-
-fn threads_of(options: &FitOptions) -> Result<usize, Failure> {
-    match options.threads {
-        Some(0) => Err(Failure::bad_input(anyhow::anyhow!("threads must be at least 1"))),
-        Some(threads) => Ok(threads),
-        None => Ok(std::thread::available_parallelism().map_or(1, |n| n.get())),
-    }
-}
-
-/// Runs the model to its target on a pool of `threads` threads with a
-/// progress bar; with `checkpoint = Some((every, path))`, saves the model to
-/// `path` every `every` sweeps.
-pub fn sample(
-    model: &mut Model,
-    threads: usize,
-    checkpoint: Option<(u64, PathBuf)>,
-    quiet: bool,
-) -> Result<FitTiming, Failure> {
-    if matches!(checkpoint, Some((0, _))) {
-        return Err(Failure::bad_input(anyhow::anyhow!(
-            "--checkpoint-every must be at least 1"
-        )));
-    }
-    let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(threads)
-        .build()
-        .map_err(Failure::system)?;
-    let mut progress = SweepProgress::new(model.target, quiet);
-    let mut checkpoint_error = None;
-    let timing = pool.install(|| {
-        fit::run_to_target(model, &mut |event| progress.update(event), &mut |model| {
-            let Some((every, path)) = &checkpoint else {
-                return ControlFlow::Continue(());
-            };
-            if model.iterations_done.is_multiple_of(*every)
-                && model.iterations_done < model.target
-                && let Err(err) = model.save(path)
-            {
-                checkpoint_error = Some(err);
-                return ControlFlow::Break(());
-            }
-            ControlFlow::Continue(())
-        })
-    });
-    progress.finish();
-    match checkpoint_error {
-        Some(err) => Err(Failure::system(err)),
-        None => Ok(timing?),
-    }
-}
-
-/// Splits off the `--holdout` documents (none when the fraction is 0).
-fn split_for_holdout(corpus: Corpus, plan: &FitPlan) -> Result<(Corpus, Option<Corpus>), Failure> {
-    if plan.holdout <= 0.0 {
-        return Ok((corpus, None));
-    }
-    let mask = score::holdout_mask(&corpus, plan.holdout, plan.settings.seed);
-    if !mask.iter().any(|&held| held) {
-        return Err(Failure::bad_input(anyhow::anyhow!(
-            "--holdout {} keeps no document out of {}; raise it or drop it",
-            plan.holdout,
-            corpus.n_docs()
-        )));
-    }
-    let (train, held) = score::split_corpus(&corpus, &mask);
-    Ok((train, Some(held)))
-}
-
-/// Held-out perplexity of the kept-out documents by document completion.
-fn score_holdout(model: &Model, held: &Corpus, threads: usize) -> Result<score::HeldOutScore, Failure> {
-    let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(threads)
-        .build()
-        .map_err(Failure::system)?;
-    let settings = score::ScoreSettings {
-        seed: model.seed,
-        ..score::ScoreSettings::default()
-    };
-    pool.install(|| score::score_heldout(model, &score::corpus_documents(held), &settings))
-        .map_err(Failure::system)
-}
-
-/// Fits a fresh model with a progress bar on a worker pool (used by `run`),
-/// scoring the `--holdout` documents when asked.
-pub fn fit_model(
-    corpus: Corpus,
-    plan: &FitPlan,
-    quiet: bool,
-) -> Result<(Model, FitTiming, Option<score::HeldOutScore>), Failure> {
-    let (train, held) = split_for_holdout(corpus, plan)?;
-    let mut model = fit::start(train, &plan.settings)?;
-    let timing = sample(&mut model, plan.threads, None, quiet)?;
-    let heldout = match &held {
-        Some(held) => Some(score_holdout(&model, held, plan.threads)?),
-        None => None,
-    };
-    Ok((model, timing, heldout))
-}
-
-/// Writes the model file and summary.json into a staged folder.
-pub fn stage_model(staged: &StagedFolder, model: &Model, summary: &FitSummary) -> Result<(), Failure> {
-    let bytes = model.encode(&staged.path(MODEL_FILE))?;
-    staged.write(MODEL_FILE, &bytes)?;
-    let mut json = serde_json::to_vec_pretty(summary).map_err(Failure::system)?;
-    json.push(b'\n');
-    staged.write(OUTPUT_MARKER, &json)?;
-    Ok(())
-}
-
-/// Loads the model of a model folder.
-pub fn load_model(dir: &Path) -> Result<Model, Failure> {
-    let path = dir.join(MODEL_FILE);
-    if !path.is_file() {
-        return Err(Failure::bad_input(anyhow::anyhow!(
-            "{}: no model here (expected {}); pass a folder written by `themata fit` or `themata run`",
-            dir.display(),
-            MODEL_FILE
-        )));
-    }
-    Ok(Model::load(&path)?)
-}
-
-/// What was fitted, and a warning when the trace has not levelled off.
-pub fn print_fit_line(summary: &FitSummary, out: &Path) {
-    println!(
-        "fitted {} topics to {} tokens in {} sweeps: log-likelihood {:.1}, {:.0} token updates/s; wrote {}",
-        summary.topics,
-        summary.tokens,
-        summary.iterations,
-        summary.log_likelihood,
-        summary.tokens_per_second,
-        out.display()
-    );
-    if let Some(perplexity) = summary.heldout_perplexity {
-        println!("held-out perplexity: {perplexity:.2} (document completion)");
-    }
-    print_convergence(summary);
-}
-
-/// Prints the learned priors' summary and warns when not converged (stderr).
-pub fn print_convergence(summary: &FitSummary) {
-    if summary.learned_alpha {
-        let alpha: Vec<String> = summary.alpha.iter().map(|a| format!("{a:.3}")).collect();
-        println!(
-            "learned alpha: [{}] (sum {:.3})",
-            alpha.join(", "),
-            summary.alpha.iter().sum::<f64>()
-        );
-    }
-    if summary.learned_beta {
-        println!("learned beta: {}", summary.beta);
-    }
-    let convergence = &summary.convergence;
-    if !convergence.converged {
-        match convergence.relative_change {
-            Some(change) => eprintln!(
-                "themata: warning: the log-likelihood was still moving at the end (relative change {change:.2e} between halves of the post-burn-in trace, threshold {:.0e}); consider more iterations",
-                convergence.threshold
-            ),
-            None => eprintln!(
-                "themata: warning: too few log-likelihood points after burn-in to judge convergence; record more (--trace-every) or run longer"
-            ),
-        }
-    }
 }

@@ -4,6 +4,7 @@
 mod assign;
 mod bench;
 mod build;
+mod common;
 mod fit;
 mod progress;
 mod run;
@@ -68,6 +69,16 @@ impl From<CorpusError> for Failure {
         match &err {
             CorpusError::Read(themata::ingest::read::ReadError::Io { .. }) => Failure::system(err),
             _ => Failure::bad_input(err),
+        }
+    }
+}
+
+impl From<themata::model::folder::FolderError> for Failure {
+    fn from(err: themata::model::folder::FolderError) -> Failure {
+        if err.is_bad_input() {
+            Failure::bad_input(err)
+        } else {
+            Failure::system(err)
         }
     }
 }

@@ -1,15 +1,17 @@
 //! `themata run`: build, fit and report as a config file describes, into one
 //! output folder that is replaced whole only when everything succeeded.
 
+use themata::model::folder::stage_model;
 use themata::model::format::StagedFolder;
-use themata::report::{self, FitSummary, ListingFormat, WordLimit};
+use themata::model::summary::FitSummary;
+use themata::report::{self, ListingFormat, WordLimit};
 use themata::settings::RunConfig;
 
-use super::fit::{fit_model, print_fit_line, stage_model};
+use super::common::{build_corpus, fit_model, print_fit_line};
+use super::{Failure, RunArgs};
 
 /// Credible-interval probability of the files a run writes.
 const DEFAULT_LEVEL: f64 = 0.9;
-use super::{Failure, RunArgs, build::build_corpus};
 
 /// Runs `themata run`.
 pub fn run(args: RunArgs) -> Result<(), Failure> {

@@ -16,8 +16,8 @@ use themata::model::Model;
 use themata::model::format::FileKind;
 use themata::report::ListingFormat;
 
-use super::fit::load_model;
 use super::{Failure, RecordOptions};
+use themata::model::folder::load_model;
 
 /// Arguments of `themata score`.
 #[derive(clap::Args, Debug)]

@@ -5,8 +5,10 @@ use std::path::PathBuf;
 
 use themata::report::{self, ListingFormat, WordLimit};
 
+use themata::model::folder::load_model;
+
 use super::Failure;
-use super::fit::load_model;
+use super::common::parse_level;
 
 /// Arguments of `themata show`.
 #[derive(clap::Args, Debug)]
@@ -26,16 +28,6 @@ pub struct ShowArgs {
     /// Probability of the credible intervals shown beside shares and weights
     #[arg(long, value_name = "P", default_value_t = 0.9, value_parser = parse_level)]
     pub interval: f64,
-}
-
-/// Parses a credible-interval probability strictly between 0 and 1.
-pub fn parse_level(text: &str) -> Result<f64, String> {
-    match text.parse::<f64>() {
-        Ok(level) if level > 0.0 && level < 1.0 => Ok(level),
-        _ => Err(format!(
-            "`{text}` is not a probability strictly between 0 and 1 (e.g. 0.9)"
-        )),
-    }
 }
 
 /// Runs `themata show`.

@@ -5,7 +5,8 @@ use themata::model::corpus_file::load_corpus;
 
 use themata::evaluate::k_search::{self, KSearchSettings};
 use themata::fitting::fit::PriorSpec;
-use themata::model::format::{OUTPUT_MARKER, StagedFolder};
+use themata::model::folder::SUMMARY_FILE;
+use themata::model::format::StagedFolder;
 use themata::settings::FitOptions;
 
 use super::Failure;
@@ -76,10 +77,7 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
         fit: plan.settings,
     };
     let staged = StagedFolder::begin(&args.out)?;
-    let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(plan.threads)
-        .build()
-        .map_err(Failure::system)?;
+    let pool = themata::thread_pool(plan.threads).map_err(Failure::system)?;
     eprintln!(
         "themata: sweeping {} candidates x {} seeds on {} threads",
         settings.topics.len(),
@@ -95,7 +93,7 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
     let tsv = k_search::to_tsv(&report);
     staged.write("sweep.tsv", tsv.as_bytes())?;
     let json = serde_json::to_vec_pretty(&report).map_err(Failure::system)?;
-    staged.write(OUTPUT_MARKER, &json)?;
+    staged.write(SUMMARY_FILE, &json)?;
     staged.commit()?;
     println!(
         "{:>6}  {:>12}  {:>8}  {:>7}  {:>7}  {:>9}",

@@ -13,7 +13,9 @@
 
 pub mod corpus_file;
 mod file;
+pub mod folder;
 pub mod format;
+pub mod summary;
 
 use std::path::Path;
 

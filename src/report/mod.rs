@@ -7,7 +7,6 @@ use std::io::{self, Write};
 use serde::Serialize;
 
 use crate::evaluate::uncertainty::UncertaintyError;
-use crate::fitting::sampler::BetaPrior;
 use crate::model::Model;
 
 /// How a listing is printed.
@@ -253,101 +252,6 @@ pub fn top_topic(shares: &[f64]) -> usize {
         }
     }
     best
-}
-
-/// The `summary.json` of a model folder. Downstream tooling reads these names.
-#[derive(Clone, Debug, Serialize)]
-pub struct FitSummary {
-    pub format_version: u32,
-    pub themata_version: String,
-    pub documents: usize,
-    pub tokens: usize,
-    pub vocabulary: usize,
-    pub topics: usize,
-    pub iterations: u64,
-    pub burn_in: u64,
-    pub seed: u64,
-    pub threads: usize,
-    pub sampler: String,
-    /// Shards of the block grid the sampler ran on (1 for the reference).
-    pub shards: u32,
-    pub alpha: Vec<f64>,
-    pub beta: serde_json::Value,
-    pub sampling_seconds: f64,
-    pub tokens_per_second: f64,
-    pub log_likelihood: f64,
-    pub log_likelihood_trace: Vec<(u64, f64)>,
-    pub learned_alpha: bool,
-    pub learned_beta: bool,
-    pub alpha_trace: Vec<(u64, Vec<f64>)>,
-    pub beta_trace: Vec<(u64, f64)>,
-    pub samples: u64,
-    pub lag: u64,
-    pub sample_iterations: Vec<u64>,
-    pub convergence: crate::fitting::fit::Convergence,
-    /// Held-out perplexity of the documents `--holdout` kept out (null without).
-    pub heldout_perplexity: Option<f64>,
-    /// The held-out scoring behind it.
-    pub heldout: Option<crate::evaluate::score::HeldOutScore>,
-    /// Peak resident memory of the process that fitted the model, in bytes
-    /// (null where the system does not tell).
-    pub peak_rss_bytes: Option<u64>,
-}
-
-/// Version of the summary.json layout.
-pub const SUMMARY_VERSION: u32 = 1;
-
-impl FitSummary {
-    /// Records the held-out score of the documents kept out of training.
-    pub fn with_heldout(mut self, score: crate::evaluate::score::HeldOutScore) -> FitSummary {
-        self.heldout_perplexity = score.heldout_perplexity;
-        self.heldout = Some(score);
-        self
-    }
-
-    /// Summarises a fitted model and the timing of the run that fitted it.
-    pub fn new(model: &Model, threads: usize, sampling_seconds: f64, tokens_per_second: f64) -> FitSummary {
-        FitSummary {
-            format_version: SUMMARY_VERSION,
-            themata_version: env!("CARGO_PKG_VERSION").to_string(),
-            documents: model.corpus.n_docs(),
-            tokens: model.corpus.n_tokens(),
-            vocabulary: model.corpus.vocabulary.len(),
-            topics: model.n_topics(),
-            iterations: model.iterations_done,
-            burn_in: model.schedule.burn_in,
-            seed: model.seed,
-            threads,
-            sampler: model.schedule.sampler.name().to_string(),
-            shards: model.schedule.shards,
-            alpha: model.priors.alpha.clone(),
-            beta: match &model.priors.beta {
-                BetaPrior::Symmetric(value) => serde_json::json!(value),
-                BetaPrior::Asymmetric(values) => serde_json::json!(values),
-            },
-            sampling_seconds,
-            tokens_per_second,
-            log_likelihood: model.trace.last().map_or(f64::NAN, |&(_, value)| value),
-            log_likelihood_trace: model.trace.clone(),
-            learned_alpha: model.schedule.learn_alpha,
-            learned_beta: model.schedule.learn_beta,
-            alpha_trace: model.alpha_trace.clone(),
-            beta_trace: model.beta_trace.clone(),
-            samples: model.schedule.samples,
-            lag: model.schedule.lag,
-            sample_iterations: model.samples.iter().map(|s| s.iteration).collect(),
-            convergence: crate::fitting::fit::convergence(model),
-            heldout_perplexity: None,
-            heldout: None,
-            peak_rss_bytes: None,
-        }
-    }
-
-    /// Records the peak resident memory of the fitting process.
-    pub fn with_peak_rss(mut self, bytes: Option<u64>) -> FitSummary {
-        self.peak_rss_bytes = bytes;
-        self
-    }
 }
 
 /// How well documents' top topics agree with their labels.

@@ -194,10 +194,7 @@ impl Setup {
 }
 
 fn pool(threads: usize) -> rayon::ThreadPool {
-    rayon::ThreadPoolBuilder::new()
-        .num_threads(threads)
-        .build()
-        .expect("a thread pool")
+    crate::thread_pool(threads).expect("a thread pool")
 }
 
 /// Seconds taken by `work`.

@@ -366,7 +366,9 @@ fn a_model_with_a_valid_checksum_and_inconsistent_contents_is_bad_input() {
         .assert()
         .code(BAD_INPUT)
         .stderr(predicate::str::contains("contents are inconsistent"))
-        .stderr(predicate::str::contains("stored counts disagree with the topic assignments"));
+        .stderr(predicate::str::contains(
+            "stored counts disagree with the topic assignments",
+        ));
 }
 
 fn run_config(scratch: &Scratch, extra: &str) -> std::path::PathBuf {

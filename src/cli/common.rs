@@ -1,0 +1,228 @@
+//! What several subcommands share: building a corpus with its printed
+//! summary, fitting with a progress bar and checkpoints, held-out scoring,
+//! and the lines printed after a fit. Subcommand files import this module,
+//! never each other.
+
+use std::ops::ControlFlow;
+use std::path::{Path, PathBuf};
+
+use themata::evaluate::score;
+use themata::fitting::fit::{self, FitTiming};
+use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus};
+use themata::model::Model;
+use themata::model::summary::FitSummary;
+use themata::settings::{FitPlan, InputOptions, TokenizerOptions, VocabularyOptions};
+
+use super::Failure;
+use super::progress::SweepProgress;
+
+/// Skipped documents listed one by one before the rest are only counted.
+const DIAGNOSTICS_SHOWN: usize = 20;
+
+/// Resolves the option groups, builds the corpus, prints the summary (unless
+/// quiet) and applies strict mode. Shared with `themata run`.
+pub fn build_corpus(
+    inputs: &[PathBuf],
+    input: &InputOptions,
+    tokenizer: &TokenizerOptions,
+    vocabulary: &VocabularyOptions,
+    quiet: bool,
+) -> Result<(Corpus, BuildSummary), Failure> {
+    let settings = BuildSettings {
+        read: input.resolve()?,
+        tokenizer: tokenizer.resolve()?,
+        prune: vocabulary.resolve()?,
+    };
+    let (corpus, summary) = corpus::build(inputs, &settings)?;
+    print_diagnostics(&summary);
+    if !quiet {
+        print_summary(&summary);
+    }
+    if input.is_strict() && !summary.diagnostics.is_empty() {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "{} document(s) skipped and --strict is set; fix the inputs listed above or drop --strict",
+            summary.diagnostics.len()
+        )));
+    }
+    Ok((corpus, summary))
+}
+
+pub fn print_diagnostics(summary: &BuildSummary) {
+    for diagnostic in summary.diagnostics.iter().take(DIAGNOSTICS_SHOWN) {
+        eprintln!("themata: skipped: {diagnostic}");
+    }
+    if summary.diagnostics.len() > DIAGNOSTICS_SHOWN {
+        eprintln!(
+            "themata: skipped: ... and {} more",
+            summary.diagnostics.len() - DIAGNOSTICS_SHOWN
+        );
+    }
+}
+
+fn print_summary(summary: &BuildSummary) {
+    let skipped: usize = summary.skipped.values().sum();
+    let reasons: Vec<String> = summary
+        .skipped
+        .iter()
+        .map(|(reason, count)| format!("{reason} {count}"))
+        .collect();
+    let reasons = if reasons.is_empty() {
+        String::new()
+    } else {
+        format!(" ({})", reasons.join(", "))
+    };
+    println!(
+        "documents: {} read, {} kept, {} skipped{}",
+        summary.documents_read, summary.documents_kept, skipped, reasons
+    );
+    let pruning = &summary.pruning;
+    println!(
+        "tokens: {} kept of {}; vocabulary: {} words of {} seen (dropped: {} too rare, {} too common, {} over the cap, {} listed)",
+        summary.tokens,
+        summary.tokens_before_pruning,
+        summary.vocabulary,
+        pruning.words_seen,
+        pruning.too_rare,
+        pruning.too_common,
+        pruning.over_cap,
+        pruning.dropped_by_list
+    );
+}
+
+/// Parses a credible-interval probability strictly between 0 and 1.
+pub fn parse_level(text: &str) -> Result<f64, String> {
+    match text.parse::<f64>() {
+        Ok(level) if level > 0.0 && level < 1.0 => Ok(level),
+        _ => Err(format!(
+            "`{text}` is not a probability strictly between 0 and 1 (e.g. 0.9)"
+        )),
+    }
+}
+
+/// Runs the model to its target on a pool of `threads` threads with a
+/// progress bar; with `checkpoint = Some((every, path))`, saves the model to
+/// `path` every `every` sweeps.
+pub fn sample(
+    model: &mut Model,
+    threads: usize,
+    checkpoint: Option<(u64, PathBuf)>,
+    quiet: bool,
+) -> Result<FitTiming, Failure> {
+    if matches!(checkpoint, Some((0, _))) {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--checkpoint-every must be at least 1"
+        )));
+    }
+    let pool = themata::thread_pool(threads).map_err(Failure::system)?;
+    let mut progress = SweepProgress::new(model.target, quiet);
+    let mut checkpoint_error = None;
+    let timing = pool.install(|| {
+        fit::run_to_target(model, &mut |event| progress.update(event), &mut |model| {
+            let Some((every, path)) = &checkpoint else {
+                return ControlFlow::Continue(());
+            };
+            if model.iterations_done.is_multiple_of(*every)
+                && model.iterations_done < model.target
+                && let Err(err) = model.save(path)
+            {
+                checkpoint_error = Some(err);
+                return ControlFlow::Break(());
+            }
+            ControlFlow::Continue(())
+        })
+    });
+    progress.finish();
+    match checkpoint_error {
+        Some(err) => Err(Failure::system(err)),
+        None => Ok(timing?),
+    }
+}
+
+/// Splits off the `--holdout` documents (none when the fraction is 0).
+pub fn split_for_holdout(corpus: Corpus, plan: &FitPlan) -> Result<(Corpus, Option<Corpus>), Failure> {
+    if plan.holdout <= 0.0 {
+        return Ok((corpus, None));
+    }
+    let mask = score::holdout_mask(&corpus, plan.holdout, plan.settings.seed);
+    if !mask.iter().any(|&held| held) {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--holdout {} keeps no document out of {}; raise it or drop it",
+            plan.holdout,
+            corpus.n_docs()
+        )));
+    }
+    let (train, held) = score::split_corpus(&corpus, &mask);
+    Ok((train, Some(held)))
+}
+
+/// Held-out perplexity of the kept-out documents by document completion.
+pub fn score_holdout(model: &Model, held: &Corpus, threads: usize) -> Result<score::HeldOutScore, Failure> {
+    let pool = themata::thread_pool(threads).map_err(Failure::system)?;
+    let settings = score::ScoreSettings {
+        seed: model.seed,
+        ..score::ScoreSettings::default()
+    };
+    pool.install(|| score::score_heldout(model, &score::corpus_documents(held), &settings))
+        .map_err(Failure::system)
+}
+
+/// Fits a fresh model with a progress bar on a worker pool (used by `run`),
+/// scoring the `--holdout` documents when asked.
+pub fn fit_model(
+    corpus: Corpus,
+    plan: &FitPlan,
+    quiet: bool,
+) -> Result<(Model, FitTiming, Option<score::HeldOutScore>), Failure> {
+    let (train, held) = split_for_holdout(corpus, plan)?;
+    let mut model = fit::start(train, &plan.settings)?;
+    let timing = sample(&mut model, plan.threads, None, quiet)?;
+    let heldout = match &held {
+        Some(held) => Some(score_holdout(&model, held, plan.threads)?),
+        None => None,
+    };
+    Ok((model, timing, heldout))
+}
+
+/// What was fitted, and a warning when the trace has not levelled off.
+pub fn print_fit_line(summary: &FitSummary, out: &Path) {
+    println!(
+        "fitted {} topics to {} tokens in {} sweeps: log-likelihood {:.1}, {:.0} token updates/s; wrote {}",
+        summary.topics,
+        summary.tokens,
+        summary.iterations,
+        summary.log_likelihood,
+        summary.tokens_per_second,
+        out.display()
+    );
+    if let Some(perplexity) = summary.heldout_perplexity {
+        println!("held-out perplexity: {perplexity:.2} (document completion)");
+    }
+    print_convergence(summary);
+}
+
+/// Prints the learned priors' summary and warns when not converged (stderr).
+pub fn print_convergence(summary: &FitSummary) {
+    if summary.learned_alpha {
+        let alpha: Vec<String> = summary.alpha.iter().map(|a| format!("{a:.3}")).collect();
+        println!(
+            "learned alpha: [{}] (sum {:.3})",
+            alpha.join(", "),
+            summary.alpha.iter().sum::<f64>()
+        );
+    }
+    if summary.learned_beta {
+        println!("learned beta: {}", summary.beta);
+    }
+    let convergence = &summary.convergence;
+    if !convergence.converged {
+        match convergence.relative_change {
+            Some(change) => eprintln!(
+                "themata: warning: the log-likelihood was still moving at the end (relative change {change:.2e} between halves of the post-burn-in trace, threshold {:.0e}); consider more iterations",
+                convergence.threshold
+            ),
+            None => eprintln!(
+                "themata: warning: too few log-likelihood points after burn-in to judge convergence; record more (--trace-every) or run longer"
+            ),
+        }
+    }
+}
