@@ -13,11 +13,19 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 use serde::Deserialize;
 
-use crate::fitting::fit::{FitSettings, PriorSpec};
-use crate::fitting::schedule::SamplerChoice;
-use crate::ingest::read::{InputFormat, ReadOptions};
-use crate::ingest::tokenize::{self, TokenizerSettings};
-use crate::ingest::vocab::PruneRules;
+use crate::fitting::fit::{
+    DEFAULT_BURN_IN, DEFAULT_ITERATIONS, DEFAULT_LAG, DEFAULT_LEARN_EVERY, DEFAULT_SAMPLES, DEFAULT_SEED,
+    DEFAULT_TRACE_EVERY, FitSettings, PriorSpec,
+};
+use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
+use crate::fitting::schedule::{EXACT_UP_TO_TOPICS, SamplerChoice, SamplerKind};
+use crate::ingest::read::{
+    DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, InputFormat, ReadOptions,
+};
+use crate::ingest::tokenize::{
+    self, DEFAULT_MAX_LENGTH, DEFAULT_MIN_LENGTH, DEFAULT_STOPWORDS, TokenizerSettings,
+};
+use crate::ingest::vocab::{DEFAULT_MAX_DOC_SHARE, DEFAULT_MIN_DOCS, PruneRules};
 
 /// A value the user gave that cannot be used.
 #[derive(Debug, thiserror::Error)]
@@ -69,6 +77,143 @@ macro_rules! overlay {
     };
 }
 
+/// A range of whole numbers a setting accepts. One definition serves the
+/// command line (as a clap value parser, so `--help` and its errors agree)
+/// and config files (checked when the group is resolved).
+#[derive(Clone, Copy, Debug)]
+pub struct WholeRange {
+    min: u64,
+    max: u64,
+}
+
+impl WholeRange {
+    /// At least `min`.
+    pub const fn at_least(min: u64) -> WholeRange {
+        WholeRange { min, max: u64::MAX }
+    }
+
+    /// From `min` to `max`, both included.
+    pub const fn between(min: u64, max: u64) -> WholeRange {
+        WholeRange { min, max }
+    }
+
+    fn describe(self) -> String {
+        if self.max == u64::MAX {
+            format!("a whole number of at least {}", self.min)
+        } else {
+            format!("a whole number from {} to {}", self.min, self.max)
+        }
+    }
+
+    /// Checks a value from a config file.
+    pub fn check(self, key: &'static str, value: u64) -> Result<(), SettingsError> {
+        if (self.min..=self.max).contains(&value) {
+            Ok(())
+        } else {
+            Err(invalid(key, format!("must be {}, got {value}", self.describe())))
+        }
+    }
+
+    /// The command-line parser of this range for values of type `T`.
+    pub fn parser<T>(self) -> impl Fn(&str) -> Result<T, String> + Clone + Send + Sync + 'static
+    where
+        T: TryFrom<u64>,
+    {
+        move |text: &str| {
+            text.trim()
+                .parse::<u64>()
+                .ok()
+                .filter(|value| (self.min..=self.max).contains(value))
+                .and_then(|value| T::try_from(value).ok())
+                .ok_or_else(|| format!("`{text}` is not {}", self.describe()))
+        }
+    }
+}
+
+/// A share: a number from 0 to 1, with each end included or not.
+#[derive(Clone, Copy, Debug)]
+pub struct ShareRange {
+    low_included: bool,
+    high_included: bool,
+}
+
+impl ShareRange {
+    /// Above 0 and at most 1.
+    pub const ABOVE_ZERO: ShareRange = ShareRange {
+        low_included: false,
+        high_included: true,
+    };
+    /// At least 0 and below 1.
+    pub const BELOW_ONE: ShareRange = ShareRange {
+        low_included: true,
+        high_included: false,
+    };
+    /// Strictly between 0 and 1 (a probability of an interval).
+    pub const OPEN: ShareRange = ShareRange {
+        low_included: false,
+        high_included: false,
+    };
+
+    fn contains(self, value: f64) -> bool {
+        let above = if self.low_included {
+            value >= 0.0
+        } else {
+            value > 0.0
+        };
+        let below = if self.high_included {
+            value <= 1.0
+        } else {
+            value < 1.0
+        };
+        above && below
+    }
+
+    fn describe(self) -> &'static str {
+        match (self.low_included, self.high_included) {
+            (false, true) => "a number above 0 and at most 1",
+            (true, false) => "a number from 0 up to (not including) 1",
+            (false, false) => "a number strictly between 0 and 1",
+            (true, true) => "a number from 0 to 1",
+        }
+    }
+
+    /// Checks a value from a config file.
+    pub fn check(self, key: &'static str, value: f64) -> Result<(), SettingsError> {
+        if self.contains(value) {
+            Ok(())
+        } else {
+            Err(invalid(key, format!("must be {}, got {value}", self.describe())))
+        }
+    }
+
+    /// The command-line parser of this range.
+    pub fn parser(self) -> impl Fn(&str) -> Result<f64, String> + Clone + Send + Sync + 'static {
+        move |text: &str| {
+            text.trim()
+                .parse::<f64>()
+                .ok()
+                .filter(|value| self.contains(*value))
+                .ok_or_else(|| format!("`{text}` is not {}", self.describe()))
+        }
+    }
+}
+
+/// Help text with its default appended, so the default is written once.
+fn help(text: &str, default: impl std::fmt::Display) -> String {
+    format!("{text} [default: {default}]")
+}
+
+/// Token lengths, in characters.
+pub const TOKEN_LENGTH: WholeRange = WholeRange::at_least(1);
+/// Counts that must be at least 1 (sweeps, samples, lags, words, documents, threads, shards).
+pub const AT_LEAST_ONE: WholeRange = WholeRange::at_least(1);
+/// Numbers of topics.
+pub const TOPICS: WholeRange = WholeRange::between(1, MAX_TOPICS as u64);
+/// The held-out fraction of `--holdout`, 0 when none is kept out.
+pub const DEFAULT_HOLDOUT: f64 = 0.0;
+/// Top words printed per topic, by default.
+pub const DEFAULT_TOP_WORDS: usize = 10;
+
 /// How input files are read.
 #[derive(Args, Deserialize, Clone, Debug, Default, PartialEq)]
 #[serde(deny_unknown_fields)]
@@ -76,20 +221,33 @@ pub struct InputOptions {
     /// Input files or folders (config file only; on the command line they are positional).
     #[arg(skip)]
     pub paths: Option<Vec<PathBuf>>,
-    /// Input format: auto decides by file extension (.txt/.md, .jsonl/.ndjson, .csv) [default: auto]
-    #[arg(long, value_enum)]
+    #[arg(
+        long,
+        value_enum,
+        help = help("Input format: auto decides by file extension (.txt/.md, .jsonl/.ndjson, .csv)", "auto")
+    )]
     pub format: Option<InputFormat>,
-    /// JSON Lines field or CSV column holding the text [default: text]
-    #[arg(long, value_name = "NAME")]
+    #[arg(long, value_name = "NAME", help = help("JSON Lines field or CSV column holding the text", DEFAULT_TEXT_FIELD))]
     pub text_field: Option<String>,
-    /// JSON Lines field or CSV column holding the document id; records without one get file:line [default: id]
-    #[arg(long, value_name = "NAME")]
+    #[arg(
+        long,
+        value_name = "NAME",
+        help = help("JSON Lines field or CSV column holding the document id; records without one get file:line", DEFAULT_ID_FIELD)
+    )]
     pub id_field: Option<String>,
-    /// JSON Lines field or CSV column holding a label, kept as metadata [default: label]
-    #[arg(long, value_name = "NAME")]
+    #[arg(
+        long,
+        value_name = "NAME",
+        help = help("JSON Lines field or CSV column holding a label, kept as metadata", DEFAULT_LABEL_FIELD)
+    )]
     pub label_field: Option<String>,
-    /// Fail (exit 2) if any document is skipped, instead of reporting it [default: false]
-    #[arg(long, num_args = 0..=1, default_missing_value = "true", value_name = "BOOL")]
+    #[arg(
+        long,
+        num_args = 0..=1,
+        default_missing_value = "true",
+        value_name = "BOOL",
+        help = help("Fail (exit 2) if any document is skipped, instead of reporting it", false)
+    )]
     pub strict: Option<bool>,
 }
 overlay!(InputOptions {
@@ -114,9 +272,9 @@ impl InputOptions {
             };
         Ok(ReadOptions {
             format: self.format.unwrap_or_default(),
-            text_field: field("text_field", &self.text_field, "text")?,
-            id_field: field("id_field", &self.id_field, "id")?,
-            label_field: field("label_field", &self.label_field, "label")?,
+            text_field: field("text_field", &self.text_field, DEFAULT_TEXT_FIELD)?,
+            id_field: field("id_field", &self.id_field, DEFAULT_ID_FIELD)?,
+            label_field: field("label_field", &self.label_field, DEFAULT_LABEL_FIELD)?,
         })
     }
 
@@ -130,24 +288,35 @@ impl InputOptions {
 #[derive(Args, Deserialize, Clone, Debug, Default, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct TokenizerOptions {
-    /// Stopword lists: a language name or code, a file with one word per line, or none; repeat or separate with commas [default: english]
-    #[arg(long, value_name = "LANG|FILE|none", value_delimiter = ',')]
+    #[arg(
+        long,
+        value_name = "LANG|FILE|none",
+        value_delimiter = ',',
+        help = help("Stopword lists: a language name or code, a file with one word per line, or none; repeat or separate with commas", DEFAULT_STOPWORDS)
+    )]
     #[serde(default, deserialize_with = "one_or_many")]
     pub stopwords: Option<Vec<String>>,
-    /// Shortest token kept, in characters [default: 3]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = TOKEN_LENGTH.parser::<usize>(), help = help("Shortest token kept, in characters", DEFAULT_MIN_LENGTH))]
     pub min_length: Option<usize>,
-    /// Longest token kept, in characters [default: 40]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = TOKEN_LENGTH.parser::<usize>(), help = help("Longest token kept, in characters", DEFAULT_MAX_LENGTH))]
     pub max_length: Option<usize>,
-    /// Keep tokens made only of digits and punctuation [default: false]
-    #[arg(long, num_args = 0..=1, default_missing_value = "true", value_name = "BOOL")]
+    #[arg(
+        long,
+        num_args = 0..=1,
+        default_missing_value = "true",
+        value_name = "BOOL",
+        help = help("Keep tokens made only of digits and punctuation", false)
+    )]
     pub keep_numbers: Option<bool>,
-    /// Keep letter case instead of lowercasing [default: false]
-    #[arg(long, num_args = 0..=1, default_missing_value = "true", value_name = "BOOL")]
+    #[arg(
+        long,
+        num_args = 0..=1,
+        default_missing_value = "true",
+        value_name = "BOOL",
+        help = help("Keep letter case instead of lowercasing", false)
+    )]
     pub keep_case: Option<bool>,
-    /// Reduce words to their Snowball stem in this language (e.g. english) [default: no stemming]
-    #[arg(long, value_name = "LANG")]
+    #[arg(long, value_name = "LANG", help = help("Reduce words to their Snowball stem in this language (e.g. english)", "no stemming"))]
     pub stem: Option<String>,
 }
 overlay!(TokenizerOptions {
@@ -165,14 +334,13 @@ impl TokenizerOptions {
         let specs = self
             .stopwords
             .clone()
-            .unwrap_or_else(|| vec!["english".to_string()]);
+            .unwrap_or_else(|| vec![DEFAULT_STOPWORDS.to_string()]);
         let (stopwords, stopword_sources) =
             tokenize::resolve_stopwords(&specs).map_err(|err| invalid("stopwords", err.to_string()))?;
-        let min_length = self.min_length.unwrap_or(3);
-        let max_length = self.max_length.unwrap_or(40);
-        if min_length == 0 {
-            return Err(invalid("min_length", "must be at least 1"));
-        }
+        let min_length = self.min_length.unwrap_or(DEFAULT_MIN_LENGTH);
+        let max_length = self.max_length.unwrap_or(DEFAULT_MAX_LENGTH);
+        TOKEN_LENGTH.check("min_length", min_length as u64)?;
+        TOKEN_LENGTH.check("max_length", max_length as u64)?;
         if max_length < min_length {
             return Err(invalid(
                 "max_length",
@@ -195,20 +363,20 @@ impl TokenizerOptions {
 #[derive(Args, Deserialize, Clone, Debug, Default, PartialEq)]
 #[serde(deny_unknown_fields)]
 pub struct VocabularyOptions {
-    /// Keep words found in at least this many documents [default: 2]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = AT_LEAST_ONE.parser::<u32>(), help = help("Keep words found in at least this many documents", DEFAULT_MIN_DOCS))]
     pub min_docs: Option<u32>,
-    /// Drop words found in more than this share of documents, 0 to 1 [default: 0.5]
-    #[arg(long, value_name = "F")]
+    #[arg(
+        long,
+        value_name = "F",
+        value_parser = ShareRange::ABOVE_ZERO.parser(),
+        help = help("Drop words found in more than this share of documents, above 0 and at most 1", DEFAULT_MAX_DOC_SHARE)
+    )]
     pub max_doc_share: Option<f64>,
-    /// Keep at most this many words, most frequent first [default: no limit]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = AT_LEAST_ONE.parser::<usize>(), help = help("Keep at most this many words, most frequent first", "no limit"))]
     pub max_words: Option<usize>,
-    /// File of words always kept, one per line [default: none]
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, value_name = "FILE", help = help("File of words always kept, one per line", "none"))]
     pub keep_words: Option<PathBuf>,
-    /// File of words always dropped, one per line [default: none]
-    #[arg(long, value_name = "FILE")]
+    #[arg(long, value_name = "FILE", help = help("File of words always dropped, one per line", "none"))]
     pub drop_words: Option<PathBuf>,
 }
 overlay!(VocabularyOptions {
@@ -235,22 +403,19 @@ fn read_word_list(key: &'static str, path: &Path) -> Result<HashSet<String>, Set
 impl VocabularyOptions {
     /// Resolves pruning rules, reading keep/drop lists.
     pub fn resolve(&self) -> Result<PruneRules, SettingsError> {
-        let max_doc_share = self.max_doc_share.unwrap_or(0.5);
-        if !(max_doc_share > 0.0 && max_doc_share <= 1.0) {
-            return Err(invalid(
-                "max_doc_share",
-                format!("must be above 0 and at most 1, got {max_doc_share}"),
-            ));
-        }
-        if self.max_words == Some(0) {
-            return Err(invalid("max_words", "must be at least 1"));
+        let min_docs = self.min_docs.unwrap_or(DEFAULT_MIN_DOCS);
+        AT_LEAST_ONE.check("min_docs", u64::from(min_docs))?;
+        let max_doc_share = self.max_doc_share.unwrap_or(DEFAULT_MAX_DOC_SHARE);
+        ShareRange::ABOVE_ZERO.check("max_doc_share", max_doc_share)?;
+        if let Some(max_words) = self.max_words {
+            AT_LEAST_ONE.check("max_words", max_words as u64)?;
         }
         let list = |key, path: &Option<PathBuf>| match path {
             Some(path) => read_word_list(key, path),
             None => Ok(HashSet::new()),
         };
         Ok(PruneRules {
-            min_docs: self.min_docs.unwrap_or(2).max(1),
+            min_docs,
             max_doc_share,
             max_words: self.max_words,
             keep: list("keep_words", &self.keep_words)?,
@@ -264,46 +429,69 @@ impl VocabularyOptions {
 #[serde(deny_unknown_fields)]
 pub struct FitOptions {
     /// Number of topics K (required)
-    #[arg(long, short = 'k', value_name = "K")]
+    #[arg(long, short = 'k', value_name = "K", value_parser = TOPICS.parser::<usize>())]
     pub topics: Option<usize>,
-    /// Gibbs sweeps over the whole corpus, burn-in included [default: 1000]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = AT_LEAST_ONE.parser::<u64>(), help = help("Gibbs sweeps over the whole corpus, burn-in included", DEFAULT_ITERATIONS))]
     pub iterations: Option<u64>,
-    /// Sweeps treated as burn-in, before the chain is taken as settled [default: 100]
-    #[arg(long, value_name = "N")]
+    #[arg(
+        long,
+        value_name = "N",
+        help = help("Sweeps treated as burn-in, before the chain is taken as settled", format!("{DEFAULT_BURN_IN}, at most half the iterations"))
+    )]
     pub burn_in: Option<u64>,
-    /// Document-topic prior: `learn` (asymmetric, learned from the data after burn-in), one value for every topic, or K comma-separated values [default: learn]
-    #[arg(long, value_name = "learn|X|X,Y,...")]
+    #[arg(
+        long,
+        value_name = "learn|X|X,Y,...",
+        help = help("Document-topic prior: `learn` (asymmetric, learned from the data after burn-in), one value for every topic, or K comma-separated values", "learn")
+    )]
     pub alpha: Option<PriorSpec>,
-    /// Topic-word prior: `learn` (symmetric, learned from the data after burn-in), one value for every word, or one comma-separated value per vocabulary word [default: learn]
-    #[arg(long, value_name = "learn|X|X,Y,...")]
+    #[arg(
+        long,
+        value_name = "learn|X|X,Y,...",
+        help = help("Topic-word prior: `learn` (symmetric, learned from the data after burn-in), one value for every word, or one comma-separated value per vocabulary word", "learn")
+    )]
     pub beta: Option<PriorSpec>,
-    /// Learn the priors every N sweeps after burn-in [default: 10]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = AT_LEAST_ONE.parser::<u64>(), help = help("Learn the priors every N sweeps after burn-in", DEFAULT_LEARN_EVERY))]
     pub learn_every: Option<u64>,
-    /// Posterior samples kept at the end of the run; estimates and intervals average them [default: 1]
-    #[arg(long, value_name = "S")]
+    #[arg(
+        long,
+        value_name = "S",
+        value_parser = AT_LEAST_ONE.parser::<u64>(),
+        help = help("Posterior samples kept at the end of the run; estimates and intervals average them", DEFAULT_SAMPLES)
+    )]
     pub samples: Option<u64>,
-    /// Sweeps between kept samples [default: 10]
-    #[arg(long, value_name = "L")]
+    #[arg(long, value_name = "L", value_parser = AT_LEAST_ONE.parser::<u64>(), help = help("Sweeps between kept samples", DEFAULT_LAG))]
     pub lag: Option<u64>,
-    /// Seed of the random stream; the same seed and inputs give the same model [default: 1]
-    #[arg(long, value_name = "S")]
+    #[arg(
+        long,
+        value_name = "S",
+        help = help("Seed of the random stream; the same seed and inputs give the same model", DEFAULT_SEED)
+    )]
     pub seed: Option<u64>,
-    /// Worker threads [default: all cores]
-    #[arg(long, value_name = "T")]
+    #[arg(long, value_name = "T", value_parser = AT_LEAST_ONE.parser::<usize>(), help = help("Worker threads", "all cores"))]
     pub threads: Option<usize>,
-    /// Record the log-likelihood every N sweeps [default: 10]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = AT_LEAST_ONE.parser::<u64>(), help = help("Record the log-likelihood every N sweeps", DEFAULT_TRACE_EVERY))]
     pub trace_every: Option<u64>,
-    /// Keep this fraction of documents out of training and report their held-out perplexity [default: 0]
-    #[arg(long, value_name = "F")]
+    #[arg(
+        long,
+        value_name = "F",
+        value_parser = ShareRange::BELOW_ONE.parser(),
+        help = help("Keep this fraction of documents out of training and report their held-out perplexity", DEFAULT_HOLDOUT)
+    )]
     pub holdout: Option<f64>,
-    /// Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), both parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (exact up to 300 topics, metropolis above) [default: auto]
-    #[arg(long, value_enum, value_name = "NAME")]
+    #[arg(
+        long,
+        value_enum,
+        value_name = "NAME",
+        help = help(&format!("Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), both parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (exact up to {EXACT_UP_TO_TOPICS} topics, metropolis above)"), "auto")
+    )]
     pub sampler: Option<SamplerChoice>,
-    /// Shards for parallel sweeps: documents and words are each cut into N parts, giving N x N blocks; fixed per model, so the thread count never changes the result [default: one per 524,288 tokens for exact, 262,144 for metropolis, at most 8]
-    #[arg(long, value_name = "N")]
+    #[arg(
+        long,
+        value_name = "N",
+        value_parser = AT_LEAST_ONE.parser::<usize>(),
+        help = help("Shards for parallel sweeps: documents and words are each cut into N parts, giving N x N blocks; fixed per model, so the thread count never changes the result", default_shards_help())
+    )]
     pub shards: Option<usize>,
 }
 overlay!(FitOptions {
@@ -342,84 +530,138 @@ pub struct FitPlan {
 }
 
 impl FitOptions {
-    /// Resolves fit settings with defaults applied.
+    /// Resolves fit settings with defaults applied and checks every rule
+    /// that does not need the corpus (`fit::resolve` checks the rest).
     pub fn resolve(&self) -> Result<FitPlan, SettingsError> {
         let n_topics = self
             .topics
             .ok_or_else(|| invalid("topics", "is required (the number of topics, e.g. 20)"))?;
-        if n_topics == 0 {
-            return Err(invalid("topics", "must be at least 1"));
-        }
-        if n_topics > u32::MAX as usize {
-            return Err(invalid("topics", "is too large"));
-        }
-        let iterations = self.iterations.unwrap_or(1000);
-        if iterations == 0 {
-            return Err(invalid("iterations", "must be at least 1"));
-        }
-        let burn_in = self.burn_in.unwrap_or(100.min(iterations / 2));
-        if burn_in >= iterations {
-            return Err(invalid(
-                "burn_in",
-                format!("must be smaller than iterations ({iterations}), got {burn_in}"),
-            ));
-        }
-        let threads = resolve_threads(self.threads)?;
-        let trace_every = self.trace_every.unwrap_or(10);
-        if trace_every == 0 {
-            return Err(invalid("trace_every", "must be at least 1"));
-        }
-        let learn_every = self.learn_every.unwrap_or(10);
-        if learn_every == 0 {
-            return Err(invalid("learn_every", "must be at least 1"));
-        }
-        let samples = self.samples.unwrap_or(1);
-        let lag = self.lag.unwrap_or(10);
-        if samples == 0 {
-            return Err(invalid("samples", "must be at least 1"));
-        }
-        if lag == 0 {
-            return Err(invalid("lag", "must be at least 1"));
-        }
-        let needed = (samples - 1) * lag + 1;
-        if needed > iterations - burn_in {
-            return Err(invalid(
-                "samples",
-                format!(
-                    "{samples} samples {lag} sweeps apart need {needed} sweeps after burn-in, but iterations - burn_in is {}",
-                    iterations - burn_in
-                ),
-            ));
-        }
-        if self.shards == Some(0) {
-            return Err(invalid("shards", "must be at least 1"));
-        }
-        let holdout = self.holdout.unwrap_or(0.0);
-        if !(0.0..1.0).contains(&holdout) {
-            return Err(invalid(
-                "holdout",
-                format!("must be at least 0 and below 1, got {holdout}"),
-            ));
-        }
+        let iterations = self.iterations.unwrap_or(DEFAULT_ITERATIONS);
+        let settings = FitSettings {
+            n_topics,
+            iterations,
+            burn_in: self.burn_in.unwrap_or(DEFAULT_BURN_IN.min(iterations / 2)),
+            alpha: self.alpha.clone().unwrap_or(PriorSpec::Learn),
+            beta: self.beta.clone().unwrap_or(PriorSpec::Learn),
+            learn_every: self.learn_every.unwrap_or(DEFAULT_LEARN_EVERY),
+            samples: self.samples.unwrap_or(DEFAULT_SAMPLES),
+            lag: self.lag.unwrap_or(DEFAULT_LAG),
+            seed: self.seed.unwrap_or(DEFAULT_SEED),
+            trace_every: self.trace_every.unwrap_or(DEFAULT_TRACE_EVERY),
+            sampler: self.sampler.unwrap_or_default(),
+            shards: self.shards,
+        };
+        check_fit_settings(&settings)?;
+        let holdout = self.holdout.unwrap_or(DEFAULT_HOLDOUT);
+        ShareRange::BELOW_ONE.check("holdout", holdout)?;
         Ok(FitPlan {
             holdout,
-            settings: FitSettings {
-                n_topics,
-                iterations,
-                burn_in,
-                alpha: self.alpha.clone().unwrap_or(PriorSpec::Learn),
-                beta: self.beta.clone().unwrap_or(PriorSpec::Learn),
-                learn_every,
-                samples,
-                lag,
-                seed: self.seed.unwrap_or(1),
-                trace_every,
-                sampler: self.sampler.unwrap_or_default(),
-                shards: self.shards,
-            },
-            threads,
+            settings,
+            threads: resolve_threads(self.threads)?,
         })
     }
+}
+
+/// Checks fit settings against every rule that does not need the corpus:
+/// the one definition of those rules, used for options from the command
+/// line and config files and for settings built in code (the K search
+/// checks each candidate with it). `fit::resolve` adds the checks that
+/// need the corpus.
+pub fn check_fit_settings(settings: &FitSettings) -> Result<(), SettingsError> {
+    TOPICS.check("topics", settings.n_topics as u64)?;
+    AT_LEAST_ONE.check("iterations", settings.iterations)?;
+    if settings.burn_in >= settings.iterations {
+        return Err(invalid(
+            "burn_in",
+            format!(
+                "must be smaller than iterations ({}), got {}",
+                settings.iterations, settings.burn_in
+            ),
+        ));
+    }
+    AT_LEAST_ONE.check("learn_every", settings.learn_every)?;
+    AT_LEAST_ONE.check("trace_every", settings.trace_every)?;
+    AT_LEAST_ONE.check("samples", settings.samples)?;
+    AT_LEAST_ONE.check("lag", settings.lag)?;
+    if let Some(shards) = settings.shards {
+        AT_LEAST_ONE.check("shards", shards as u64)?;
+    }
+    let after_burn_in = settings.iterations - settings.burn_in;
+    let needed = (settings.samples - 1)
+        .checked_mul(settings.lag)
+        .and_then(|sweeps| sweeps.checked_add(1));
+    if needed.is_none_or(|needed| needed > after_burn_in) {
+        return Err(invalid(
+            "samples",
+            format!(
+                "{} samples {} sweeps apart need {} sweeps after burn-in, but iterations - burn_in is {after_burn_in}; lower samples or lag, or raise iterations",
+                settings.samples,
+                settings.lag,
+                needed.map_or_else(|| "more".to_string(), |n| n.to_string())
+            ),
+        ));
+    }
+    check_prior("alpha", &settings.alpha, Some(settings.n_topics), "topic")?;
+    check_prior("beta", &settings.beta, None, "vocabulary word")?;
+    Ok(())
+}
+
+/// Checks a prior's values (positive, finite) and, for alpha, the number of
+/// values (1 or one per topic); beta's length needs the vocabulary and is
+/// checked by `fit::resolve`.
+fn check_prior(
+    key: &'static str,
+    spec: &PriorSpec,
+    expected: Option<usize>,
+    per: &str,
+) -> Result<(), SettingsError> {
+    let values: &[f64] = match spec {
+        PriorSpec::Learn => return Ok(()),
+        PriorSpec::Symmetric(value) => std::slice::from_ref(value),
+        PriorSpec::List(values) => values,
+    };
+    if let Some(value) = values.iter().find(|value| !(value.is_finite() && **value > 0.0)) {
+        return Err(invalid(
+            key,
+            format!("values must be positive and finite, got {value}"),
+        ));
+    }
+    if let Some(expected) = expected
+        && values.len() != 1
+        && values.len() != expected
+    {
+        return Err(invalid(
+            key,
+            format!(
+                "has {} values but needs 1 or {expected} (one per {per})",
+                values.len()
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// The `[default: ...]` of `--shards`, from the kernels' own figures.
+fn default_shards_help() -> String {
+    let per_shard = |kind| sampler::tokens_per_shard(kind).map_or_else(String::new, thousands);
+    format!(
+        "one per {} tokens for exact, {} for metropolis, at most {MAX_AUTO_SHARDS}",
+        per_shard(SamplerKind::Exact),
+        per_shard(SamplerKind::Metropolis)
+    )
+}
+
+/// A whole number with commas between groups of three digits.
+fn thousands(value: usize) -> String {
+    let digits = value.to_string();
+    let mut out = String::new();
+    for (idx, digit) in digits.chars().enumerate() {
+        if idx > 0 && (digits.len() - idx).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(digit);
+    }
+    out
 }
 
 /// Where a run writes and what it shows.
@@ -429,8 +671,7 @@ pub struct OutputOptions {
     /// Output folder; relative paths in a config file are taken from the config file's folder
     #[arg(long = "out", value_name = "DIR")]
     pub dir: Option<PathBuf>,
-    /// Top words printed per topic [default: 10]
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = AT_LEAST_ONE.parser::<usize>(), help = help("Top words printed per topic", DEFAULT_TOP_WORDS))]
     pub top_words: Option<usize>,
 }
 overlay!(OutputOptions { dir, top_words });
@@ -571,8 +812,10 @@ impl RunConfig {
         if self.fit.topics.is_some() {
             self.fit.resolve().map_err(|err| at("fit", err))?;
         }
-        if self.output.top_words == Some(0) {
-            return Err(at("output", invalid("top_words", "must be at least 1")));
+        if let Some(top_words) = self.output.top_words {
+            AT_LEAST_ONE
+                .check("top_words", top_words as u64)
+                .map_err(|err| at("output", err))?;
         }
         Ok(())
     }
@@ -645,7 +888,10 @@ mod tests {
     fn bad_value_is_reported_with_its_line() {
         let (_folder, path) = write_config("[fit]\n\ntopics = 0\n");
         let err = RunConfig::load(&path).unwrap_err().to_string();
-        assert!(err.contains("run.toml:3: fit.topics must be at least 1"), "{err}");
+        assert!(
+            err.contains("run.toml:3: fit.topics must be a whole number from 1 to 65536, got 0"),
+            "{err}"
+        );
         let (_folder, path) = write_config("[vocabulary]\nmax_doc_share = 1.5\n");
         let err = RunConfig::load(&path).unwrap_err().to_string();
         assert!(err.contains("run.toml:2: vocabulary.max_doc_share"), "{err}");

@@ -40,7 +40,7 @@ pub struct AssignArgs {
     #[command(flatten)]
     pub records: RecordOptions,
     /// Probability of the credible intervals
-    #[arg(long, value_name = "P", default_value_t = 0.9, value_parser = parse_level)]
+    #[arg(long, value_name = "P", default_value_t = themata::evaluate::uncertainty::DEFAULT_LEVEL, value_parser = parse_level)]
     pub interval: f64,
     /// Fold-in samples kept per document (after 50 burn-in sweeps, 5 sweeps apart)
     #[arg(long, value_name = "S", default_value_t = 10)]

@@ -132,10 +132,10 @@ pub struct RecordOptions {
     #[arg(long, value_enum, default_value_t = themata::ingest::read::InputFormat::Auto)]
     pub input_format: themata::ingest::read::InputFormat,
     /// JSON Lines field or CSV column holding the text
-    #[arg(long, value_name = "NAME", default_value = "text")]
+    #[arg(long, value_name = "NAME", default_value = themata::ingest::read::DEFAULT_TEXT_FIELD)]
     pub text_field: String,
     /// JSON Lines field or CSV column holding the document id
-    #[arg(long, value_name = "NAME", default_value = "id")]
+    #[arg(long, value_name = "NAME", default_value = themata::ingest::read::DEFAULT_ID_FIELD)]
     pub id_field: String,
 }
 

@@ -1,6 +1,7 @@
 //! `themata run`: build, fit and report as a config file describes, into one
 //! output folder that is replaced whole only when everything succeeded.
 
+use themata::evaluate::uncertainty::DEFAULT_LEVEL;
 use themata::model::folder::stage_model;
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
@@ -9,9 +10,6 @@ use themata::settings::RunConfig;
 
 use super::common::{build_corpus, fit_model, print_fit_line};
 use super::{Failure, RunArgs};
-
-/// Credible-interval probability of the files a run writes.
-const DEFAULT_LEVEL: f64 = 0.9;
 
 /// Runs `themata run`.
 pub fn run(args: RunArgs) -> Result<(), Failure> {
@@ -35,7 +33,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
             args.config.display()
         ))
     })?;
-    let top_words = output.top_words.unwrap_or(10);
+    let top_words = output.top_words.unwrap_or(themata::settings::DEFAULT_TOP_WORDS);
     let staged = StagedFolder::begin(&out_dir)?;
 
     let (corpus, build_summary) = build_corpus(&inputs, &input, &tokenizer, &vocabulary, args.quiet)?;

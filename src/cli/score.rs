@@ -32,7 +32,7 @@ pub struct ScoreArgs {
     #[arg(long, value_enum, default_value_t = Method::Completion)]
     pub method: Method,
     /// Particles of the left-to-right estimator
-    #[arg(long, value_name = "R", default_value_t = 20)]
+    #[arg(long, value_name = "R", default_value_t = ScoreSettings::default().particles)]
     pub particles: usize,
     /// Corpus file whose documents give the coherence probabilities [default: the training corpus]
     #[arg(long, value_name = "CORPUS")]
@@ -41,10 +41,10 @@ pub struct ScoreArgs {
     #[arg(long, value_name = "M", default_value_t = 10)]
     pub top_words: usize,
     /// Sliding window of NPMI, in tokens (a document shorter than the window is one window)
-    #[arg(long, value_name = "N", default_value_t = 10)]
+    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().npmi_window)]
     pub npmi_window: usize,
     /// Sliding window of C_V, in tokens
-    #[arg(long, value_name = "N", default_value_t = 110)]
+    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().cv_window)]
     pub cv_window: usize,
     /// Output layout (table or json)
     #[arg(long, value_enum, default_value_t = ListingFormat::Table)]

@@ -3,7 +3,9 @@
 use std::io::Write;
 use std::path::PathBuf;
 
+use themata::evaluate::uncertainty::DEFAULT_LEVEL;
 use themata::report::{self, ListingFormat, WordLimit};
+use themata::settings::DEFAULT_TOP_WORDS;
 
 use themata::model::folder::load_model;
 
@@ -20,13 +22,13 @@ pub struct ShowArgs {
     #[arg(long, value_enum, default_value_t = ListingFormat::Table)]
     pub format: ListingFormat,
     /// Words per topic: a number, or `all` for every word the topic has tokens of
-    #[arg(long, value_name = "N|all", default_value = "10")]
+    #[arg(long, value_name = "N|all", default_value_t = WordLimit::Top(DEFAULT_TOP_WORDS))]
     pub words: WordLimit,
     /// Show each document's topic shares instead of the topics
     #[arg(long)]
     pub documents: bool,
     /// Probability of the credible intervals shown beside shares and weights
-    #[arg(long, value_name = "P", default_value_t = 0.9, value_parser = parse_level)]
+    #[arg(long, value_name = "P", default_value_t = DEFAULT_LEVEL, value_parser = parse_level)]
     pub interval: f64,
 }
 

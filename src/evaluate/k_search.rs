@@ -16,12 +16,15 @@ use crate::evaluate::compare::match_topics;
 use crate::evaluate::score::{self, ScoreError, ScoreSettings};
 use crate::fitting::fit::{self, FitError, FitSettings};
 use crate::ingest::corpus::Corpus;
+use crate::settings::{self, SettingsError};
 
 /// Why a sweep could not run.
 #[derive(Debug, thiserror::Error)]
 pub enum KSearchError {
     #[error(transparent)]
     Fit(#[from] FitError),
+    #[error(transparent)]
+    Settings(#[from] SettingsError),
     #[error("the held-out fraction keeps no document out; raise --holdout")]
     NoHeldOut,
     #[error("scoring failed: {0}")]
@@ -90,13 +93,12 @@ pub fn run_k_search(corpus: &Corpus, settings: &KSearchSettings) -> Result<KSear
     }
     let held_docs = score::corpus_documents(&held);
     for &topics in &settings.topics {
-        fit::resolve(
-            &train,
-            &FitSettings {
-                n_topics: topics,
-                ..settings.fit.clone()
-            },
-        )?;
+        let candidate = FitSettings {
+            n_topics: topics,
+            ..settings.fit.clone()
+        };
+        settings::check_fit_settings(&candidate)?;
+        fit::resolve(&train, &candidate)?;
     }
     let jobs: Vec<(usize, u64)> = settings
         .topics

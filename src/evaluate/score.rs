@@ -15,6 +15,7 @@ use crate::evaluate::coherence::{self, CoherenceError, CoherenceSettings};
 use crate::evaluate::diagnostics::{self, DiagnosticsError, TopicRows};
 use crate::evaluate::heldout::{self, FoldInSettings, HeldOutError};
 use crate::evaluate::uncertainty::{self, UncertaintyError};
+use crate::fitting::sampler::splitmix64;
 use crate::ingest::corpus::Corpus;
 use crate::ingest::tokenize::Tokenizer;
 use crate::ingest::vocab::Vocabulary;
@@ -169,11 +170,7 @@ impl<'a> TopicWeights<'a> {
 
 /// The random stream of document `doc_idx` under `seed` (SplitMix64 mixing of the index).
 pub fn document_rng(seed: u64, doc_idx: usize) -> Xoshiro256PlusPlus {
-    let mut z = (doc_idx as u64).wrapping_add(0x9e37_79b9_7f4a_7c15);
-    z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-    z ^= z >> 31;
-    Xoshiro256PlusPlus::seed_from_u64(seed ^ z)
+    Xoshiro256PlusPlus::seed_from_u64(seed ^ splitmix64(doc_idx as u64))
 }
 
 /// The result of scoring held-out documents.

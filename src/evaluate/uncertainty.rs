@@ -59,6 +59,9 @@ pub enum UncertaintyError {
     OffSimplex { sum: f64 },
 }
 
+/// The probability of credible intervals when none is asked for.
+pub const DEFAULT_LEVEL: f64 = 0.9;
+
 /// A posterior mean with an equal-tailed credible interval around it.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Interval {

@@ -13,7 +13,7 @@ use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
 use crate::fitting::priors::{self, CountHistogram, LearnSettings};
-use crate::fitting::sampler::{self, BetaPrior, CountState, MAX_TOKENS, MAX_TOPICS, Priors, ShardedSampler};
+use crate::fitting::sampler::{self, BetaPrior, CountState, MAX_TOKENS, Priors, ShardedSampler};
 use crate::fitting::schedule::{SamplerChoice, Schedule};
 use crate::ingest::corpus::Corpus;
 use crate::model::{Model, Sample};
@@ -72,6 +72,21 @@ pub const LEARN_START_ALPHA: f64 = 0.1;
 /// Starting value of a learned beta.
 pub const LEARN_START_BETA: f64 = 0.01;
 
+/// Gibbs sweeps of a fit, burn-in included, when none are given.
+pub const DEFAULT_ITERATIONS: u64 = 1000;
+/// Burn-in sweeps when none are given (at most half the iterations).
+pub const DEFAULT_BURN_IN: u64 = 100;
+/// Sweeps between two prior-learning steps after burn-in, by default.
+pub const DEFAULT_LEARN_EVERY: u64 = 10;
+/// Posterior samples kept at the end of a run, by default.
+pub const DEFAULT_SAMPLES: u64 = 1;
+/// Sweeps between kept samples, by default.
+pub const DEFAULT_LAG: u64 = 10;
+/// The seed of the random stream when none is given.
+pub const DEFAULT_SEED: u64 = 1;
+/// Sweeps between two log-likelihood trace points, by default.
+pub const DEFAULT_TRACE_EVERY: u64 = 10;
+
 /// Resolved fit settings.
 #[derive(Clone, Debug, PartialEq)]
 pub struct FitSettings {
@@ -102,30 +117,25 @@ impl FitSettings {
             burn_in: iterations / 2,
             alpha: PriorSpec::Symmetric(alpha),
             beta: PriorSpec::Symmetric(beta),
-            learn_every: 10,
+            learn_every: DEFAULT_LEARN_EVERY,
             samples: 1,
             lag: 1,
             seed,
-            trace_every: 10,
+            trace_every: DEFAULT_TRACE_EVERY,
             sampler: SamplerChoice::Auto,
             shards: None,
         }
     }
 }
 
-/// Settings that cannot work with the corpus given.
+/// Settings that cannot work with the corpus given (the rules that need no
+/// corpus are checked by `settings::check_fit_settings`).
 #[derive(Debug, thiserror::Error)]
 pub enum FitError {
-    #[error("the number of topics must be at least 1")]
-    NoTopics,
     #[error("{topics} topics is more than the {tokens} tokens of the corpus; choose fewer topics")]
     TooManyTopics { topics: usize, tokens: usize },
-    #[error("{topics} topics is more than the {max} a model can hold; choose fewer topics")]
-    TopicLimit { topics: usize, max: usize },
     #[error("at least one iteration is needed")]
     NoIterations,
-    #[error("burn-in ({burn_in}) must be smaller than the number of iterations ({iterations})")]
-    BurnInTooLong { burn_in: u64, iterations: u64 },
     #[error(
         "{samples} samples {lag} sweeps apart need {needed} sweeps after burn-in, but only {available} remain; lower --samples or --lag, or raise --iterations"
     )]
@@ -135,8 +145,6 @@ pub enum FitError {
         needed: u64,
         available: u64,
     },
-    #[error("{name} must be at least 1")]
-    ZeroSetting { name: &'static str },
     #[error("{name} has {found} values but needs 1 or {expected} (one per {per})")]
     PriorLength {
         name: &'static str,
@@ -144,10 +152,6 @@ pub enum FitError {
         expected: usize,
         per: &'static str,
     },
-    #[error("{name} values must be positive and finite (got {value})")]
-    PriorValue { name: &'static str, value: f64 },
-    #[error("beta can be learned only as a symmetric prior; this model has one beta per word")]
-    AsymmetricBetaLearning,
     #[error("the corpus has no tokens")]
     EmptyCorpus,
     #[error("the corpus has {tokens} tokens, more than the {max} a model can hold; split it")]
@@ -187,13 +191,7 @@ impl FitTiming {
     }
 }
 
-fn check_values(name: &'static str, values: &[f64]) -> Result<(), FitError> {
-    match values.iter().find(|value| !(value.is_finite() && **value > 0.0)) {
-        Some(&value) => Err(FitError::PriorValue { name, value }),
-        None => Ok(()),
-    }
-}
-
+/// The prior's values for `expected` entries: one value for all, or one each.
 fn expand(
     name: &'static str,
     spec: &PriorSpec,
@@ -201,32 +199,23 @@ fn expand(
     per: &'static str,
     learn_start: f64,
 ) -> Result<Vec<f64>, FitError> {
-    let values = match spec {
-        PriorSpec::Learn => vec![learn_start],
-        PriorSpec::Symmetric(value) => vec![*value],
-        PriorSpec::List(values) if values.len() == expected || values.len() == 1 => values.clone(),
-        PriorSpec::List(values) => {
-            return Err(FitError::PriorLength {
-                name,
-                found: values.len(),
-                expected,
-                per,
-            });
-        }
-    };
-    check_values(name, &values)?;
-    Ok(values)
+    match spec {
+        PriorSpec::Learn => Ok(vec![learn_start; expected]),
+        PriorSpec::Symmetric(value) => Ok(vec![*value; expected]),
+        PriorSpec::List(values) if values.len() == 1 => Ok(vec![values[0]; expected]),
+        PriorSpec::List(values) if values.len() == expected => Ok(values.clone()),
+        PriorSpec::List(values) => Err(FitError::PriorLength {
+            name,
+            found: values.len(),
+            expected,
+            per,
+        }),
+    }
 }
 
-/// Checks the sample plan: `samples` samples `lag` apart within `available` sweeps.
+/// Checks the sample plan of a model continued for `available` sweeps.
 fn check_samples(samples: u64, lag: u64, available: u64) -> Result<(), FitError> {
-    if samples == 0 {
-        return Err(FitError::ZeroSetting { name: "samples" });
-    }
-    if lag == 0 {
-        return Err(FitError::ZeroSetting { name: "lag" });
-    }
-    let needed = (samples - 1) * lag + 1;
+    let needed = (samples.max(1) - 1).saturating_mul(lag).saturating_add(1);
     if needed > available {
         return Err(FitError::SamplesDoNotFit {
             samples,
@@ -239,19 +228,12 @@ fn check_samples(samples: u64, lag: u64, available: u64) -> Result<(), FitError>
 }
 
 /// Checks the settings against the corpus and resolves the starting priors
-/// and the schedule.
+/// and the schedule. The settings are taken as checked by
+/// `settings::check_fit_settings` (as `FitOptions::resolve` does); only the
+/// rules that need the corpus are checked here.
 pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Schedule), FitError> {
-    if settings.n_topics == 0 {
-        return Err(FitError::NoTopics);
-    }
     if corpus.n_tokens() == 0 {
         return Err(FitError::EmptyCorpus);
-    }
-    if settings.n_topics > corpus.n_tokens() {
-        return Err(FitError::TooManyTopics {
-            topics: settings.n_topics,
-            tokens: corpus.n_tokens(),
-        });
     }
     if corpus.n_tokens() > MAX_TOKENS {
         return Err(FitError::CorpusTooLarge {
@@ -259,35 +241,12 @@ pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Sched
             max: MAX_TOKENS,
         });
     }
-    if settings.n_topics > MAX_TOPICS {
-        return Err(FitError::TopicLimit {
+    if settings.n_topics > corpus.n_tokens() {
+        return Err(FitError::TooManyTopics {
             topics: settings.n_topics,
-            max: MAX_TOPICS,
+            tokens: corpus.n_tokens(),
         });
     }
-    if settings.shards == Some(0) {
-        return Err(FitError::ZeroSetting { name: "shards" });
-    }
-    if settings.iterations == 0 {
-        return Err(FitError::NoIterations);
-    }
-    if settings.burn_in >= settings.iterations {
-        return Err(FitError::BurnInTooLong {
-            burn_in: settings.burn_in,
-            iterations: settings.iterations,
-        });
-    }
-    if settings.trace_every == 0 {
-        return Err(FitError::ZeroSetting { name: "trace_every" });
-    }
-    if settings.learn_every == 0 {
-        return Err(FitError::ZeroSetting { name: "learn_every" });
-    }
-    check_samples(
-        settings.samples,
-        settings.lag,
-        settings.iterations - settings.burn_in,
-    )?;
     let alpha = expand(
         "alpha",
         &settings.alpha,
@@ -295,22 +254,17 @@ pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Sched
         "topic",
         LEARN_START_ALPHA,
     )?;
-    let alpha = if alpha.len() == 1 {
-        vec![alpha[0]; settings.n_topics]
-    } else {
-        alpha
-    };
-    let beta = expand(
-        "beta",
-        &settings.beta,
-        corpus.vocabulary.len(),
-        "vocabulary word",
-        LEARN_START_BETA,
-    )?;
-    let beta = if beta.len() == 1 {
-        BetaPrior::Symmetric(beta[0])
-    } else {
-        BetaPrior::Asymmetric(beta)
+    let beta = match &settings.beta {
+        PriorSpec::List(values) if values.len() > 1 => BetaPrior::Asymmetric(expand(
+            "beta",
+            &settings.beta,
+            corpus.vocabulary.len(),
+            "vocabulary word",
+            LEARN_START_BETA,
+        )?),
+        PriorSpec::List(values) => BetaPrior::Symmetric(values[0]),
+        PriorSpec::Symmetric(value) => BetaPrior::Symmetric(*value),
+        PriorSpec::Learn => BetaPrior::Symmetric(LEARN_START_BETA),
     };
     let sampler = settings.sampler.resolve(settings.n_topics);
     let shards = if sampler.is_block_parallel() {

@@ -24,11 +24,16 @@ pub struct PruneRules {
     pub drop: HashSet<String>,
 }
 
+/// Words are kept when found in at least this many documents, by default.
+pub const DEFAULT_MIN_DOCS: u32 = 2;
+/// Words found in more than this share of documents are dropped, by default.
+pub const DEFAULT_MAX_DOC_SHARE: f64 = 0.5;
+
 impl Default for PruneRules {
     fn default() -> Self {
         PruneRules {
-            min_docs: 2,
-            max_doc_share: 0.5,
+            min_docs: DEFAULT_MIN_DOCS,
+            max_doc_share: DEFAULT_MAX_DOC_SHARE,
             max_words: None,
             keep: HashSet::new(),
             drop: HashSet::new(),

@@ -48,6 +48,15 @@ pub enum WordLimit {
     All,
 }
 
+impl std::fmt::Display for WordLimit {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            WordLimit::Top(n) => write!(f, "{n}"),
+            WordLimit::All => write!(f, "all"),
+        }
+    }
+}
+
 impl std::str::FromStr for WordLimit {
     type Err = String;
 

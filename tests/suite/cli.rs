@@ -230,10 +230,16 @@ fn fit_refuses_bad_inputs() {
         .code(BAD_INPUT)
         .stderr(predicate::str::contains("topics"));
     themata(scratch.root())
-        .args(["fit", "corpus.bin", "--topics", "100000", "--out", "m"])
+        .args(["fit", "corpus.bin", "--topics", "1000", "--out", "m"])
         .assert()
         .code(BAD_INPUT)
         .stderr(predicate::str::contains("more than the"));
+    // Source: common practice — the limit is stated where the flag is parsed.
+    themata(scratch.root())
+        .args(["fit", "corpus.bin", "--topics", "100000", "--out", "m"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("not a whole number from 1 to 65536"));
     themata(scratch.root())
         .args(["fit", "absent.bin", "--topics", "3", "--out", "m"])
         .assert()
@@ -261,7 +267,7 @@ fn fit_refuses_bad_inputs() {
         ])
         .assert()
         .code(BAD_INPUT)
-        .stderr(predicate::str::contains("alpha has 2 values"));
+        .stderr(predicate::str::contains("alpha: has 2 values but needs 1 or 3"));
     scratch.write("mine/notes.txt", "keep me");
     themata(scratch.root())
         .args(["fit", "corpus.bin", "--topics", "3", "--out", "mine"])

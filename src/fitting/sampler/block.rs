@@ -103,7 +103,8 @@ pub fn block_stream(seed: u64, iteration: u64, block: usize) -> Xoshiro256PlusPl
     Xoshiro256PlusPlus::seed_from_u64(mixed)
 }
 
-/// SplitMix64's finaliser (Steele, Lea & Flood 2014), a bijective mixer.
+/// SplitMix64's step and finaliser (Steele, Lea & Flood 2014), a bijective
+/// mixer: the one used wherever a seed is split into independent streams.
 pub fn splitmix64(value: u64) -> u64 {
     let mut z = value.wrapping_add(0x9E37_79B9_7F4A_7C15);
     z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);

@@ -19,7 +19,10 @@ pub use block::{BlockKernel, block_stream, splitmix64};
 pub use counts::{RowLayout, RowsMut, WordTopicCounts};
 pub use metropolis::CYCLES_PER_TOKEN;
 pub use reference::{conditional, sweep_reference};
-pub use sharded::{MAX_TOKENS, Shard, ShardedSampler, default_shards, plan_shards, plan_word_groups};
+pub use sharded::{
+    MAX_AUTO_SHARDS, MAX_TOKENS, Shard, ShardedSampler, default_shards, plan_shards, plan_word_groups,
+    tokens_per_shard,
+};
 
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};

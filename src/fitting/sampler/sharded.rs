@@ -49,7 +49,7 @@ pub const MAX_TOKENS: usize = i32::MAX as usize;
 
 /// Tokens per shard aimed at when the shard count is chosen automatically
 /// (the reference sweep is not sharded).
-fn tokens_per_shard(kind: SamplerKind) -> Option<usize> {
+pub fn tokens_per_shard(kind: SamplerKind) -> Option<usize> {
     match kind {
         SamplerKind::Reference => None,
         SamplerKind::Exact => Some(ExactKernel::TOKENS_PER_SHARD),

@@ -48,6 +48,13 @@ const BYTE_ORDER_MARK: &[u8] = b"\xEF\xBB\xBF";
 /// Starting capacity of the reused JSON Lines buffer and of file readers.
 const READ_BUFFER_BYTES: usize = 64 * 1024;
 
+/// The field or column holding a document's text when none is named.
+pub const DEFAULT_TEXT_FIELD: &str = "text";
+/// The field or column holding a document's id when none is named.
+pub const DEFAULT_ID_FIELD: &str = "id";
+/// The field or column holding a document's label when none is named.
+pub const DEFAULT_LABEL_FIELD: &str = "label";
+
 /// How to interpret an input path.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize, clap::ValueEnum)]
 #[serde(rename_all = "lowercase")]
@@ -80,9 +87,9 @@ impl Default for ReadOptions {
     fn default() -> Self {
         ReadOptions {
             format: InputFormat::Auto,
-            text_field: "text".into(),
-            id_field: "id".into(),
-            label_field: "label".into(),
+            text_field: DEFAULT_TEXT_FIELD.into(),
+            id_field: DEFAULT_ID_FIELD.into(),
+            label_field: DEFAULT_LABEL_FIELD.into(),
         }
     }
 }

@@ -31,6 +31,13 @@ use stopwords::{normalized_sorted_words, stopword_language_examples};
 /// U+2019 RIGHT SINGLE QUOTATION MARK and U+02BC MODIFIER LETTER APOSTROPHE.
 const TYPOGRAPHIC_APOSTROPHES: [char; 2] = ['\u{2019}', '\u{02BC}'];
 
+/// The stopword list used when none is named.
+pub const DEFAULT_STOPWORDS: &str = "english";
+/// Shortest token kept by default, in characters.
+pub const DEFAULT_MIN_LENGTH: usize = 3;
+/// Longest token kept by default, in characters.
+pub const DEFAULT_MAX_LENGTH: usize = 40;
+
 /// Everything that decides how text becomes tokens; stored in corpus and model files.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct TokenizerSettings {
@@ -57,10 +64,10 @@ impl Default for TokenizerSettings {
         TokenizerSettings {
             lowercase: true,
             drop_numbers: true,
-            min_length: 3,
-            max_length: 40,
+            min_length: DEFAULT_MIN_LENGTH,
+            max_length: DEFAULT_MAX_LENGTH,
             stopwords: normalized_sorted_words(ENGLISH_STOPWORDS.iter().copied()),
-            stopword_sources: vec!["english".to_string()],
+            stopword_sources: vec![DEFAULT_STOPWORDS.to_string()],
             stemmer: None,
         }
     }
