@@ -9,6 +9,7 @@ use std::process::ExitCode;
 fn main() -> ExitCode {
     match cli::run(cli::parse()) {
         Ok(()) => ExitCode::SUCCESS,
+        Err(failure) if failure.is_quiet_stop() => ExitCode::SUCCESS,
         Err(failure) => {
             eprintln!("themata: error: {}", cli::describe(&failure.error));
             ExitCode::from(failure.code)

@@ -71,7 +71,7 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     if args.format == AssignFormat::Tsv {
-        writeln!(out, "document\ttopic\tshare\tlow\thigh").map_err(Failure::system)?;
+        writeln!(out, "document\ttopic\tshare\tlow\thigh").map_err(Failure::output)?;
     }
     let mut batch: Vec<EncodedDocument> = Vec::with_capacity(BATCH);
     let mut totals = Totals::default();
@@ -93,7 +93,7 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
         for placement in placed {
             let placement = placement.map_err(Failure::system)?;
             totals.add(&placement);
-            write_placement(&mut out, &placement, args.format).map_err(Failure::system)?;
+            write_placement(&mut out, &placement, args.format).map_err(Failure::output)?;
             if placement.no_known_words {
                 eprintln!(
                     "themata: flagged: document `{}` has no word the model knows ({} tokens, all unknown); it was not placed",
@@ -125,7 +125,7 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
         return Err(err);
     }
     flush(&mut batch, &mut totals)?;
-    out.flush().map_err(Failure::system)?;
+    out.flush().map_err(Failure::output)?;
     for diagnostic in &diagnostics {
         eprintln!("themata: skipped: {diagnostic}");
     }

@@ -26,6 +26,8 @@ use themata::settings::{
 pub const EXIT_BAD_INPUT: u8 = 2;
 /// Exit code for I/O or internal failures.
 pub const EXIT_FAILURE: u8 = 3;
+/// The reader of our output went away: stop, print nothing, succeed.
+const EXIT_QUIET_STOP: u8 = 0;
 
 /// A failed command: what went wrong and the exit code it maps to.
 #[derive(Debug)]
@@ -49,6 +51,24 @@ impl Failure {
             code: EXIT_FAILURE,
             error: error.into(),
         }
+    }
+
+    /// A failure to write output: a closed pipe (`themata ... | head`) ends
+    /// the command quietly with success, anything else is a system failure.
+    pub fn output(error: std::io::Error) -> Failure {
+        if error.kind() == std::io::ErrorKind::BrokenPipe {
+            Failure {
+                code: EXIT_QUIET_STOP,
+                error: error.into(),
+            }
+        } else {
+            Failure::system(error)
+        }
+    }
+
+    /// Whether the command was only stopped by a closed pipe.
+    pub fn is_quiet_stop(&self) -> bool {
+        self.code == EXIT_QUIET_STOP
     }
 }
 

@@ -103,17 +103,21 @@ pub fn encode_text(tokenizer: &Tokenizer, vocabulary: &Vocabulary, id: &str, tex
     }
 }
 
-/// A word-major table of phi above this many bytes is not built; the
-/// columns a document needs are computed for it instead.
+/// The word-major table of phi is built for at most this many bytes' worth
+/// of words; a document with a word beyond them gets the columns it needs
+/// computed for it.
 const DENSE_TABLE_LIMIT_BYTES: usize = 64 << 20;
 
 /// Where the held-out estimators read the topic-word shares from: a
-/// word-major table `[w * K + k] = phi_kw` when it is small, or, for a large
-/// model, a table of only the words of the document at hand, computed for
-/// it. Both hold the same values, bit for bit, so results do not depend on
-/// which is used.
+/// word-major table `[w * K + k] = phi_kw` of the most frequent words (word
+/// ids count down from the most frequent, so these are the first ids; all
+/// of them when the table is small), and, for a document with rarer words,
+/// a table of just its words, the rare ones computed for it. Both hold the
+/// same values, bit for bit, so results do not depend on which is used.
 pub struct TopicWeights<'a> {
-    dense: Option<Vec<f64>>,
+    /// Columns of words `0..n_hot`.
+    hot: Vec<f64>,
+    n_hot: usize,
     columns: TopicWordColumns<'a>,
 }
 
@@ -123,28 +127,29 @@ impl<'a> TopicWeights<'a> {
         TopicWeights::with_table_limit(model, DENSE_TABLE_LIMIT_BYTES)
     }
 
-    /// [`TopicWeights::of`] with the largest dense table given.
+    /// [`TopicWeights::of`] with the largest word-major table given.
     fn with_table_limit(model: &'a Model, limit_bytes: usize) -> TopicWeights<'a> {
-        let columns = model.topic_word_columns();
         let n_topics = model.n_topics();
-        let n_words = model.state.n_words;
-        let dense = (n_words * n_topics * std::mem::size_of::<f64>() <= limit_bytes).then(|| {
-            let mut table = Vec::with_capacity(n_words * n_topics);
-            let mut column = Vec::with_capacity(n_topics);
-            for word_idx in 0..n_words {
-                columns.fill(word_idx, &mut column);
-                table.extend_from_slice(&column);
+        let n_hot = (limit_bytes / (n_topics * std::mem::size_of::<f64>())).min(model.state.n_words);
+        let mut hot = vec![0.0; n_hot * n_topics];
+        if n_hot > 0 {
+            for topic_idx in 0..n_topics {
+                let row = model.topic_word_row(topic_idx);
+                for (word_idx, &value) in row[..n_hot].iter().enumerate() {
+                    hot[word_idx * n_topics + topic_idx] = value;
+                }
             }
-            table
-        });
-        TopicWeights { dense, columns }
+        }
+        let columns = model.topic_word_columns(n_hot);
+        TopicWeights { hot, n_hot, columns }
     }
 
     /// Calls `f(tokens, table)` with a word-major table that covers the
     /// document's words and the document's tokens as indices into it.
     pub fn with_document<T>(&self, tokens: &[u32], f: impl FnOnce(&[u32], &[f64]) -> T) -> T {
-        if let Some(table) = &self.dense {
-            return f(tokens, table);
+        let n_topics = self.columns.n_topics();
+        if self.n_hot > 0 && tokens.iter().all(|&word| (word as usize) < self.n_hot) {
+            return f(tokens, &self.hot);
         }
         let mut words: Vec<u32> = tokens.to_vec();
         words.sort_unstable();
@@ -153,12 +158,16 @@ impl<'a> TopicWeights<'a> {
             .iter()
             .map(|word| words.partition_point(|w| w < word) as u32)
             .collect();
-        let n_topics = self.columns.n_topics();
         let mut table = Vec::with_capacity(words.len().max(1) * n_topics);
         let mut column = Vec::with_capacity(n_topics);
         for &word in &words {
-            self.columns.fill(word as usize, &mut column);
-            table.extend_from_slice(&column);
+            let word = word as usize;
+            if word < self.n_hot {
+                table.extend_from_slice(&self.hot[word * n_topics..(word + 1) * n_topics]);
+            } else {
+                self.columns.fill(word, &mut column);
+                table.extend_from_slice(&column);
+            }
         }
         if words.is_empty() {
             // The estimators check the table's shape before the document's length.
@@ -525,7 +534,10 @@ mod tests {
         let documents = corpus_documents(&data.corpus);
         let dense = TopicWeights::with_table_limit(&model, usize::MAX);
         let columns = TopicWeights::with_table_limit(&model, 0);
-        assert!(dense.dense.is_some() && columns.dense.is_none());
+        // Room for the three most frequent words only: documents mix both paths.
+        let mixed = TopicWeights::with_table_limit(&model, 3 * 2 * 8);
+        assert_eq!(dense.n_hot, model.state.n_words);
+        assert_eq!((columns.n_hot, mixed.n_hot), (0, 3));
         let score_with = |weights: &TopicWeights<'_>| -> Vec<(u64, Vec<u64>)> {
             documents
                 .iter()
@@ -564,5 +576,15 @@ mod tests {
                 .collect()
         };
         assert_eq!(score_with(&dense), score_with(&columns));
+        assert_eq!(score_with(&dense), score_with(&mixed));
+        // Columns looked up topic by topic (no word indexed) agree too.
+        let looked_up = model.topic_word_columns(model.state.n_words);
+        let mut column = Vec::new();
+        for word in 0..model.state.n_words {
+            looked_up.fill(word, &mut column);
+            for (topic, value) in column.iter().enumerate() {
+                assert_eq!(value.to_bits(), model.topic_word_row(topic)[word].to_bits());
+            }
+        }
     }
 }

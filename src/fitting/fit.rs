@@ -12,7 +12,7 @@ use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize};
 
-use crate::fitting::priors::{self, CountHistogram, LearnSettings};
+use crate::fitting::priors::{self, CountHistogram, HistogramBuilder, LearnSettings};
 use crate::fitting::sampler::{self, BetaPrior, CountState, MAX_TOKENS, Priors, ShardedSampler};
 use crate::fitting::schedule::{SamplerChoice, Schedule};
 use crate::ingest::corpus::Corpus;
@@ -428,24 +428,24 @@ pub fn run_to_target(
 
 /// For each topic, the histogram of its token count over documents (zeros left out).
 fn doc_topic_histograms(state: &CountState, corpus: &Corpus) -> Vec<CountHistogram> {
-    let mut per_topic: Vec<Vec<u32>> = vec![Vec::new(); state.n_topics];
+    let mut per_topic: Vec<HistogramBuilder> = vec![HistogramBuilder::default(); state.n_topics];
     for doc_idx in 0..corpus.n_docs() {
         for (topic, count) in state.doc_topic_pairs(corpus, doc_idx) {
-            per_topic[topic as usize].push(count);
+            per_topic[topic as usize].add(count);
         }
     }
-    per_topic.into_iter().map(CountHistogram::from_counts).collect()
+    per_topic.into_iter().map(HistogramBuilder::finish).collect()
 }
 
 /// The histogram of every non-zero word-topic count.
 fn word_topic_histogram(state: &CountState) -> CountHistogram {
-    let mut counts = Vec::new();
+    let mut histogram = HistogramBuilder::default();
     for word_idx in 0..state.n_words {
         state
             .word_topic
-            .for_each_nonzero(word_idx, |_, count| counts.push(count));
+            .for_each_nonzero(word_idx, |_, count| histogram.add(count));
     }
-    CountHistogram::from_counts(counts)
+    histogram.finish()
 }
 
 /// A convergence judgement from the log-likelihood trace.

@@ -112,10 +112,23 @@ pub(crate) fn sparse_counts(state: &CountState, corpus: &Corpus) -> (SparseRows,
 /// w, averaged over the samples, computed from the sparse counts on demand.
 /// Each value is the same, bit for bit, as in [`Model::topic_word_row`]: the
 /// same terms are added in the same order.
+///
+/// For the words from `first_word` on, each sample's counts are kept word by
+/// word (at most 8 bytes per non-zero count of those words), so a column
+/// costs O(K + its non-zero counts) per sample; earlier words are looked up
+/// topic by topic.
 pub struct TopicWordColumns<'a> {
     model: &'a Model,
     /// The current state as a sample, when no samples were kept.
     current: Option<Sample>,
+    first_word: usize,
+    /// Per sample: `n_k + b0` for every topic.
+    denominators: Vec<Vec<f64>>,
+    /// Per sample: where each word's `(topic, count)` entries start, for
+    /// words `first_word..V`, and one past the last.
+    starts: Vec<Vec<usize>>,
+    /// Per sample: the entries, topics increasing within a word.
+    entries: Vec<Vec<(u32, u32)>>,
 }
 
 impl TopicWordColumns<'_> {
@@ -124,26 +137,39 @@ impl TopicWordColumns<'_> {
         self.model.n_topics()
     }
 
+    fn samples(&self) -> &[Sample] {
+        match &self.current {
+            Some(current) => std::slice::from_ref(current),
+            None => self.model.samples.as_slice(),
+        }
+    }
+
     /// Writes `phi_kw` of word `word_idx` for every topic k into `column`
     /// (resized to K).
     pub fn fill(&self, word_idx: usize, column: &mut Vec<f64>) {
-        let samples = match &self.current {
-            Some(current) => std::slice::from_ref(current),
-            None => self.model.samples.as_slice(),
-        };
-        let n_words = self.model.state.n_words;
+        let samples = self.samples();
         column.clear();
         column.resize(self.n_topics(), 0.0);
         let weight = 1.0 / samples.len() as f64;
-        for sample in samples {
+        for (sample_idx, sample) in samples.iter().enumerate() {
             let beta = sample.priors.beta_of(word_idx);
-            let beta_sum = sample.priors.beta_sum(n_words);
-            for (topic_idx, value) in column.iter_mut().enumerate() {
-                let denominator = sample.topic_totals[topic_idx] as f64 + beta_sum;
-                *value += weight * beta / denominator;
-                let count = Sample::count(&sample.topic_word[topic_idx], word_idx);
-                if count > 0 {
-                    *value += weight * f64::from(count) / denominator;
+            let denominators = &self.denominators[sample_idx];
+            if word_idx >= self.first_word {
+                for (value, &denominator) in column.iter_mut().zip(denominators) {
+                    *value += weight * beta / denominator;
+                }
+                let local = word_idx - self.first_word;
+                let starts = &self.starts[sample_idx];
+                for &(topic, count) in &self.entries[sample_idx][starts[local]..starts[local + 1]] {
+                    column[topic as usize] += weight * f64::from(count) / denominators[topic as usize];
+                }
+            } else {
+                for (topic_idx, (value, &denominator)) in column.iter_mut().zip(denominators).enumerate() {
+                    *value += weight * beta / denominator;
+                    let count = Sample::count(&sample.topic_word[topic_idx], word_idx);
+                    if count > 0 {
+                        *value += weight * f64::from(count) / denominator;
+                    }
                 }
             }
         }
@@ -192,13 +218,57 @@ impl Model {
     }
 
     /// The topic-word shares of one word at a time (a column of `phi`), for
-    /// callers that must not hold the K x V matrix; see [`TopicWordColumns`].
-    pub fn topic_word_columns(&self) -> TopicWordColumns<'_> {
+    /// callers that must not hold the K x V matrix; the words from
+    /// `first_word` on are indexed for fast columns (see [`TopicWordColumns`]).
+    pub fn topic_word_columns(&self, first_word: usize) -> TopicWordColumns<'_> {
         let current = self
             .samples
             .is_empty()
             .then(|| Sample::of(self, self.iterations_done));
-        TopicWordColumns { model: self, current }
+        let n_words = self.state.n_words;
+        let first_word = first_word.min(n_words);
+        let samples = current
+            .as_ref()
+            .map_or(self.samples.as_slice(), std::slice::from_ref);
+        let mut denominators = Vec::with_capacity(samples.len());
+        let mut all_starts = Vec::with_capacity(samples.len());
+        let mut all_entries = Vec::with_capacity(samples.len());
+        for sample in samples {
+            let beta_sum = sample.priors.beta_sum(n_words);
+            denominators.push(sample.topic_totals.iter().map(|&n| n as f64 + beta_sum).collect());
+            let mut starts = vec![0usize; n_words - first_word + 1];
+            for row in &sample.topic_word {
+                for &(word, _) in row {
+                    if word as usize >= first_word {
+                        starts[word as usize - first_word + 1] += 1;
+                    }
+                }
+            }
+            for local in 1..starts.len() {
+                starts[local] += starts[local - 1];
+            }
+            let mut next = starts.clone();
+            let mut entries = vec![(0u32, 0u32); *starts.last().unwrap_or(&0)];
+            for (topic, row) in sample.topic_word.iter().enumerate() {
+                for &(word, count) in row {
+                    if word as usize >= first_word {
+                        let slot = &mut next[word as usize - first_word];
+                        entries[*slot] = (topic as u32, count);
+                        *slot += 1;
+                    }
+                }
+            }
+            all_starts.push(starts);
+            all_entries.push(entries);
+        }
+        TopicWordColumns {
+            model: self,
+            current,
+            first_word,
+            denominators,
+            starts: all_starts,
+            entries: all_entries,
+        }
     }
 
     /// The full topic-word matrix `phi` (K rows of V).

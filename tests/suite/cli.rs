@@ -934,3 +934,39 @@ fn fit_accepts_each_sampler_and_rejects_unknown_ones() {
         .code(2)
         .stderr(predicates::str::contains("shards"));
 }
+
+#[test]
+fn assign_ends_quietly_when_its_reader_closes_the_pipe() {
+    // Source: common practice (`cmd | head` must not turn into an error):
+    // the reader goes away after one line while assign still has far more
+    // than a pipe buffer (64 KiB on Linux, pipe(7)) left to write.
+    use std::io::{BufRead, BufReader};
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let line = "{\"text\":\"harbour tide quay boat nets seed soil plot bus road\"}\n";
+    scratch.write("many.jsonl", line.repeat(4000));
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("themata"))
+        .current_dir(scratch.root())
+        .args(["assign", "model", "many.jsonl", "--quiet"])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut reader = BufReader::new(child.stdout.take().unwrap());
+    let mut first = String::new();
+    reader.read_line(&mut first).unwrap();
+    assert!(first.starts_with("document\t"), "{first}");
+    drop(reader);
+    let output = child.wait_with_output().unwrap();
+    assert_eq!(
+        output.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    assert!(
+        output.stderr.is_empty(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+}

@@ -6,6 +6,7 @@ mod cli;
 mod determinism;
 mod formats;
 mod geweke;
+mod golden;
 mod learning;
 mod samplers;
 mod scoring;

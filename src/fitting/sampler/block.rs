@@ -4,12 +4,13 @@
 //! [`BlockKernel`] trait a kernel implements. Kernels depend on this file
 //! and the driver on the kernels, never the other way round.
 
+use std::ops::Range;
+
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
 use super::Topic;
 use super::counts::{RowLayout, RowsMut};
-use super::sharded::Shard;
 
 /// A kernel: samples every token of one block once. Built for one sweep
 /// (it may hold the priors of that sweep); shared by the threads of the
@@ -30,6 +31,17 @@ pub trait BlockKernel: Sync {
         topic_totals: &mut [u64],
         scratch: &mut Self::Scratch,
     );
+}
+
+/// One shard: a contiguous range of documents and of their tokens.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Shard {
+    /// Position of the shard.
+    pub index: usize,
+    /// The documents.
+    pub docs: Range<usize>,
+    /// Their tokens.
+    pub tokens: Range<usize>,
 }
 
 /// What the kernels need to know of a word, in one place so that one cache

@@ -15,12 +15,12 @@ mod prefetch;
 mod reference;
 mod sharded;
 
-pub use block::{BlockKernel, block_stream, splitmix64};
+pub use block::{BlockKernel, Shard, block_stream, splitmix64};
 pub use counts::{RowLayout, RowsMut, WordTopicCounts};
 pub use metropolis::CYCLES_PER_TOKEN;
 pub use reference::{conditional, sweep_reference};
 pub use sharded::{
-    MAX_AUTO_SHARDS, MAX_TOKENS, Shard, ShardedSampler, default_shards, plan_shards, plan_word_groups,
+    MAX_AUTO_SHARDS, MAX_TOKENS, ShardedSampler, default_shards, plan_shards, plan_word_groups,
     tokens_per_shard,
 };
 

@@ -26,12 +26,11 @@
 //! where a word's entries are), from which word proposals draw; entries of a
 //! word group are written only by the block that owns the group.
 
-use std::ops::Range;
 use std::sync::Mutex;
 
 use rayon::prelude::*;
 
-use super::block::{Block, BlockContext, BlockKernel, WordRecord, pack_entry, unpack_entry};
+use super::block::{Block, BlockContext, BlockKernel, Shard, WordRecord, pack_entry, unpack_entry};
 use super::counts::RowsMut;
 use super::exact::ExactKernel;
 use super::metropolis::MetropolisKernel;
@@ -99,17 +98,6 @@ struct Workspace<S> {
     totals_change: Vec<i64>,
     /// The kernel's own scratch.
     scratch: S,
-}
-
-/// One shard: a contiguous range of documents and of their tokens.
-#[derive(Clone, Debug, PartialEq)]
-pub struct Shard {
-    /// Position of the shard.
-    pub index: usize,
-    /// The documents.
-    pub docs: Range<usize>,
-    /// Their tokens.
-    pub tokens: Range<usize>,
 }
 
 /// Cuts the corpus into `n_shards` document ranges with about equal token
