@@ -20,7 +20,7 @@ use crate::fitting::fit::{
 use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
 use crate::fitting::schedule::{EXACT_UP_TO_TOPICS, SamplerChoice, SamplerKind};
 use crate::ingest::read::{
-    DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, InputFormat, ReadOptions,
+    DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, InputFormat, ReadOptions,
 };
 use crate::ingest::tokenize::{
     self, DEFAULT_MAX_LENGTH, DEFAULT_MIN_LENGTH, DEFAULT_STOPWORDS, TokenizerSettings,
@@ -243,6 +243,12 @@ pub struct InputOptions {
     pub label_field: Option<String>,
     #[arg(
         long,
+        value_name = "NAME",
+        help = help("JSON Lines field or CSV column holding a date (ISO 8601, e.g. 2024-03-01), kept as metadata for the report", DEFAULT_DATE_FIELD)
+    )]
+    pub date_field: Option<String>,
+    #[arg(
+        long,
         num_args = 0..=1,
         default_missing_value = "true",
         value_name = "BOOL",
@@ -256,6 +262,7 @@ overlay!(InputOptions {
     text_field,
     id_field,
     label_field,
+    date_field,
     strict
 });
 
@@ -275,6 +282,7 @@ impl InputOptions {
             text_field: field("text_field", &self.text_field, DEFAULT_TEXT_FIELD)?,
             id_field: field("id_field", &self.id_field, DEFAULT_ID_FIELD)?,
             label_field: field("label_field", &self.label_field, DEFAULT_LABEL_FIELD)?,
+            date_field: field("date_field", &self.date_field, DEFAULT_DATE_FIELD)?,
         })
     }
 

@@ -313,6 +313,7 @@ pub fn start(corpus: Corpus, settings: &FitSettings) -> Result<Model, FitError> 
         rng,
         trace: vec![(0, initial)],
         samples: Vec::new(),
+        topic_ids: (0..settings.n_topics as u32).collect(),
     })
 }
 

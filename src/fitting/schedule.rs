@@ -28,6 +28,17 @@ impl SamplerKind {
         }
     }
 
+    /// The kind a name from [`SamplerKind::name`] stands for.
+    pub fn from_name(name: &str) -> Option<SamplerKind> {
+        [
+            SamplerKind::Reference,
+            SamplerKind::Exact,
+            SamplerKind::Metropolis,
+        ]
+        .into_iter()
+        .find(|kind| kind.name() == name)
+    }
+
     /// Whether it runs on the block grid (all but the reference sweep).
     pub fn is_block_parallel(self) -> bool {
         self != SamplerKind::Reference

@@ -19,6 +19,8 @@ pub struct DocumentInfo {
     pub id: String,
     /// The document's label, when the input has one; kept as metadata only.
     pub label: Option<String>,
+    /// The document's date as written in the input, when it has one.
+    pub date: Option<String>,
     /// Where it was read from (`file` or `file:line`).
     pub source: String,
 }
@@ -65,6 +67,7 @@ impl Corpus {
             documents.push(DocumentInfo {
                 id: format!("doc-{idx}"),
                 label: None,
+                date: None,
                 source: String::new(),
             });
         }
@@ -154,6 +157,7 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
         documents.push(DocumentInfo {
             id: doc.id,
             label: doc.label,
+            date: doc.date,
             source: doc.origin.to_string(),
         });
     })?;

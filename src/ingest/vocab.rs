@@ -57,12 +57,14 @@ pub struct PruneReport {
 }
 
 /// The final word list with per-word statistics from the training documents.
-#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, Default, PartialEq)]
 pub struct Vocabulary {
     words: Vec<String>,
     word_counts: Vec<u64>,
     doc_counts: Vec<u32>,
-    #[serde(skip)]
+    /// The form each word is shown in (for a stem, a surface form it stands
+    /// for); empty when every word is shown as it is.
+    surface_forms: Vec<String>,
     index: HashMap<String, u32>,
 }
 
@@ -73,6 +75,7 @@ impl Vocabulary {
             words,
             word_counts,
             doc_counts,
+            surface_forms: Vec::new(),
             index: HashMap::new(),
         };
         vocabulary.rebuild_index();
@@ -107,6 +110,33 @@ impl Vocabulary {
     /// All words in id order.
     pub fn words(&self) -> &[String] {
         &self.words
+    }
+
+    /// How word `id` is shown to people: its surface form when one was kept
+    /// (a stem shows a word it stands for), else the word itself. The word
+    /// stays the key for lookups.
+    pub fn display(&self, id: u32) -> &str {
+        self.surface_forms
+            .get(id as usize)
+            .unwrap_or(&self.words[id as usize])
+    }
+
+    /// The surface forms in id order (empty when words are shown as they are).
+    pub fn surface_forms(&self) -> &[String] {
+        &self.surface_forms
+    }
+
+    /// Sets the surface forms, one per word in id order, or none.
+    ///
+    /// # Panics
+    /// When `forms` is neither empty nor one per word.
+    pub fn with_surface_forms(mut self, forms: Vec<String>) -> Vocabulary {
+        assert!(
+            forms.is_empty() || forms.len() == self.words.len(),
+            "one surface form per word"
+        );
+        self.surface_forms = forms;
+        self
     }
 
     /// The id of `word`, if it is in the vocabulary.

@@ -28,14 +28,22 @@ pub fn encode_corpus(corpus: &Corpus, path: &Path) -> Result<Vec<u8>, FormatErro
     format::encode(FileKind::Corpus, &CorpusOut::of(corpus), path)
 }
 
-/// Reads a corpus file and checks its contents.
+/// Reads a corpus file of any readable version and checks its contents.
 pub fn load_corpus(path: &Path) -> Result<Corpus, FormatError> {
-    let shape: CorpusV1 = format::read_file(FileKind::Corpus, path)?;
+    let bytes = format::read_bytes(path)?;
+    let shape = format::decode_versioned(FileKind::Corpus, &bytes, path, |version, payload| {
+        if version == 1 {
+            Ok(format::decode_payload::<CorpusV1>(payload, path)?.upgrade())
+        } else {
+            format::decode_payload::<CorpusV2>(payload, path)
+        }
+    })?;
+    drop(bytes);
     shape.into_corpus(path)
 }
 
-/// The corpus as written (format 1 of the corpus file; also inside model
-/// files of formats 1 and 2).
+/// The corpus as written (format 2 of the corpus file; also inside model
+/// files of format 3).
 #[derive(Serialize)]
 pub(super) struct CorpusOut<'a> {
     tokenizer: TokenizerOut<'a>,
@@ -63,6 +71,7 @@ impl<'a> CorpusOut<'a> {
                 words: corpus.vocabulary.words(),
                 word_counts: corpus.vocabulary.word_counts(),
                 doc_counts: corpus.vocabulary.doc_counts(),
+                surface_forms: corpus.vocabulary.surface_forms(),
             },
             documents: &corpus.documents,
             offsets: &corpus.offsets,
@@ -75,6 +84,7 @@ fn documents_out<S: Serializer>(documents: &&[DocumentInfo], serializer: S) -> R
     serializer.collect_seq(documents.iter().map(|document| DocumentOut {
         id: &document.id,
         label: document.label.as_deref(),
+        date: document.date.as_deref(),
         source: &document.source,
     }))
 }
@@ -95,16 +105,45 @@ struct VocabularyOut<'a> {
     words: &'a [String],
     word_counts: &'a [u64],
     doc_counts: &'a [u32],
+    surface_forms: &'a [String],
 }
 
 #[derive(Serialize)]
 struct DocumentOut<'a> {
     id: &'a str,
     label: Option<&'a str>,
+    date: Option<&'a str>,
     source: &'a str,
 }
 
-/// The corpus as read (format 1; the same shape as [`CorpusOut`]).
+/// The corpus as read (format 2; the same shape as [`CorpusOut`]).
+#[derive(Deserialize)]
+pub(super) struct CorpusV2 {
+    tokenizer: TokenizerV1,
+    vocabulary: VocabularyV2,
+    documents: Vec<DocumentV2>,
+    offsets: Vec<u64>,
+    tokens: Vec<u32>,
+}
+
+#[derive(Deserialize)]
+struct VocabularyV2 {
+    words: Vec<String>,
+    word_counts: Vec<u64>,
+    doc_counts: Vec<u32>,
+    surface_forms: Vec<String>,
+}
+
+#[derive(Deserialize)]
+struct DocumentV2 {
+    id: String,
+    label: Option<String>,
+    date: Option<String>,
+    source: String,
+}
+
+/// The corpus of format 1 (also inside model files of formats 1 and 2): no
+/// surface forms, no dates.
 #[derive(Deserialize)]
 pub(super) struct CorpusV1 {
     tokenizer: TokenizerV1,
@@ -112,6 +151,33 @@ pub(super) struct CorpusV1 {
     documents: Vec<DocumentV1>,
     offsets: Vec<u64>,
     tokens: Vec<u32>,
+}
+
+impl CorpusV1 {
+    /// The same corpus in the format-2 shape.
+    pub(super) fn upgrade(self) -> CorpusV2 {
+        CorpusV2 {
+            tokenizer: self.tokenizer,
+            vocabulary: VocabularyV2 {
+                words: self.vocabulary.words,
+                word_counts: self.vocabulary.word_counts,
+                doc_counts: self.vocabulary.doc_counts,
+                surface_forms: Vec::new(),
+            },
+            documents: self
+                .documents
+                .into_iter()
+                .map(|document| DocumentV2 {
+                    id: document.id,
+                    label: document.label,
+                    date: None,
+                    source: document.source,
+                })
+                .collect(),
+            offsets: self.offsets,
+            tokens: self.tokens,
+        }
+    }
 }
 
 #[derive(Deserialize)]
@@ -139,9 +205,9 @@ struct DocumentV1 {
     source: String,
 }
 
-impl CorpusV1 {
+impl CorpusV2 {
     /// The corpus in memory, once every invariant is checked: word lists of
-    /// one length without repeats, sane token length bounds, offsets that
+    /// one length (surface forms: none or one per word) without repeats, sane token length bounds, offsets that
     /// start at 0, never decrease and end at the token count, one offset
     /// per document plus one, and every token a vocabulary word.
     pub(super) fn into_corpus(self, path: &Path) -> Result<Corpus, FormatError> {
@@ -151,6 +217,12 @@ impl CorpusV1 {
         };
         let vocabulary = self.vocabulary;
         let n_words = vocabulary.words.len();
+        if !vocabulary.surface_forms.is_empty() && vocabulary.surface_forms.len() != n_words {
+            return Err(invalid(format!(
+                "the vocabulary has {n_words} words but {} surface forms",
+                vocabulary.surface_forms.len()
+            )));
+        }
         if vocabulary.word_counts.len() != n_words || vocabulary.doc_counts.len() != n_words {
             return Err(invalid(format!(
                 "the vocabulary has {n_words} words but {} token counts and {} document counts",
@@ -213,13 +285,15 @@ impl CorpusV1 {
                 vocabulary.words,
                 vocabulary.word_counts,
                 vocabulary.doc_counts,
-            ),
+            )
+            .with_surface_forms(vocabulary.surface_forms),
             documents: self
                 .documents
                 .into_iter()
                 .map(|document| DocumentInfo {
                     id: document.id,
                     label: document.label,
+                    date: document.date,
                     source: document.source,
                 })
                 .collect(),
@@ -241,12 +315,20 @@ mod tests {
         );
         let mut corpus = Corpus::from_documents(vocabulary, vec![vec![0, 1, 0], vec![1, 2, 0]]);
         corpus.documents[1].label = Some("harbour".into());
+        corpus.documents[0].date = Some("2024-03-01".into());
+        corpus.vocabulary =
+            corpus
+                .vocabulary
+                .with_surface_forms(vec!["quays".into(), "tides".into(), "ferry".into()]);
         corpus
     }
 
     fn decode(bytes: &[u8]) -> Result<Corpus, FormatError> {
         let path = Path::new("c.bin");
-        format::decode::<CorpusV1>(FileKind::Corpus, bytes, path)?.into_corpus(path)
+        format::decode_versioned(FileKind::Corpus, bytes, path, |_, payload| {
+            format::decode_payload::<CorpusV2>(payload, path)
+        })?
+        .into_corpus(path)
     }
 
     #[test]
@@ -275,6 +357,7 @@ mod tests {
             words: &parts.words,
             word_counts: &parts.word_counts,
             doc_counts: &parts.doc_counts,
+            surface_forms: &[],
         };
         out.tokenizer.min_length = parts.min_length;
         out.documents = &parts.documents;

@@ -1,4 +1,4 @@
-//! The model file: its on-disk shapes for formats 1 and 2, written from
+//! The model file: its on-disk shapes for formats 1 to 3, written from
 //! borrowed data and read into owned data, and the checks a decoded model
 //! must pass before anything uses it.
 //!
@@ -16,7 +16,7 @@ use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 use serde::{Deserialize, Serialize, Serializer};
 
-use super::corpus_file::{CorpusOut, CorpusV1};
+use super::corpus_file::{CorpusOut, CorpusV1, CorpusV2};
 use super::format::{self, FileKind, FormatError};
 use super::{Model, Sample, SparseRows, sparse_counts};
 use crate::fitting::sampler::{BetaPrior, CountState, MAX_TOPICS, Priors, Topic};
@@ -47,13 +47,14 @@ pub(super) fn encode(model: &Model, path: &Path) -> Result<Vec<u8>, FormatError>
         },
         iterations_done: model.iterations_done,
         target: model.target,
-        schedule: ScheduleV2::of(&model.schedule),
+        schedule: ScheduleV3::of(&model.schedule),
         seed: model.seed,
         rng: rng_state(&model.rng),
         trace: &model.trace,
         alpha_trace: &model.alpha_trace,
         beta_trace: &model.beta_trace,
         samples: &model.samples,
+        topic_ids: &model.topic_ids,
     };
     format::encode(FileKind::Model, &shape, path)
 }
@@ -61,12 +62,12 @@ pub(super) fn encode(model: &Model, path: &Path) -> Result<Vec<u8>, FormatError>
 /// Reads a model file of any readable version and checks its contents.
 pub(super) fn load(path: &Path) -> Result<Model, FormatError> {
     let bytes = format::read_bytes(path)?;
-    let shape = format::decode_versioned(FileKind::Model, &bytes, path, |version, payload| {
-        if version == 1 {
-            format::decode_payload::<ModelV1>(payload, path)?.upgrade(path)
-        } else {
-            format::decode_payload::<ModelV2>(payload, path)
-        }
+    let shape = format::decode_versioned(FileKind::Model, &bytes, path, |version, payload| match version {
+        1 => Ok(format::decode_payload::<ModelV1>(payload, path)?
+            .upgrade(path)?
+            .upgrade()),
+        2 => Ok(format::decode_payload::<ModelV2>(payload, path)?.upgrade()),
+        _ => format::decode_payload::<ModelV3>(payload, path),
     })?;
     drop(bytes);
     shape.into_model(path)
@@ -109,7 +110,7 @@ fn rng_from_state(state: RngState) -> Xoshiro256PlusPlus {
     Xoshiro256PlusPlus::from_seed(seed)
 }
 
-/// The model as written (format 2).
+/// The model as written (format 3).
 #[derive(Serialize)]
 struct ModelOut<'a> {
     corpus: CorpusOut<'a>,
@@ -120,7 +121,7 @@ struct ModelOut<'a> {
     doc_topic: DocTopicOut<'a>,
     iterations_done: u64,
     target: u64,
-    schedule: ScheduleV2,
+    schedule: ScheduleV3<'a>,
     seed: u64,
     rng: RngState,
     trace: &'a [(u64, f64)],
@@ -128,6 +129,7 @@ struct ModelOut<'a> {
     beta_trace: &'a [(u64, f64)],
     #[serde(serialize_with = "samples_out")]
     samples: &'a [Sample],
+    topic_ids: &'a [u32],
 }
 
 /// The document-topic counts of the current state, one document at a time.
@@ -188,7 +190,28 @@ struct SampleOut<'a> {
     topic_totals: &'a [u64],
 }
 
-/// The model as read (format 2; the same shape as [`ModelOut`]).
+/// The model as read (format 3; the same shape as [`ModelOut`]).
+#[derive(Deserialize)]
+struct ModelV3 {
+    corpus: CorpusV2,
+    n_topics: u32,
+    priors: PriorsV1,
+    assignments: Vec<Topic>,
+    topic_word: SparseRows,
+    doc_topic: SparseRows,
+    iterations_done: u64,
+    target: u64,
+    schedule: ScheduleV3<'static>,
+    seed: u64,
+    rng: RngState,
+    trace: Vec<(u64, f64)>,
+    alpha_trace: Vec<(u64, Vec<f64>)>,
+    beta_trace: Vec<(u64, f64)>,
+    samples: Vec<SampleV1>,
+    topic_ids: Vec<u32>,
+}
+
+/// Format 2: the sampler as an enum, no topic ids, the corpus of format 1.
 #[derive(Deserialize)]
 struct ModelV2 {
     corpus: CorpusV1,
@@ -245,15 +268,63 @@ struct SampleV1 {
 }
 
 /// The sampler of format 2; variants in this order.
-#[derive(Clone, Copy, Serialize, Deserialize)]
+#[derive(Clone, Copy, Deserialize)]
 enum SamplerV2 {
     Reference,
     Exact,
     Metropolis,
 }
 
+/// The schedule of format 3: the sampler by its name (`SamplerKind::name`),
+/// so that a sampler added later changes no shape and an older reader
+/// refuses its files by name.
+#[derive(Serialize, Deserialize)]
+struct ScheduleV3<'a> {
+    sampler: std::borrow::Cow<'a, str>,
+    shards: u32,
+    burn_in: u64,
+    learn_alpha: bool,
+    learn_beta: bool,
+    learn_every: u64,
+    samples: u64,
+    lag: u64,
+    trace_every: u64,
+}
+
+impl ScheduleV3<'_> {
+    fn of(schedule: &Schedule) -> ScheduleV3<'static> {
+        ScheduleV3 {
+            sampler: std::borrow::Cow::Borrowed(schedule.sampler.name()),
+            shards: schedule.shards,
+            burn_in: schedule.burn_in,
+            learn_alpha: schedule.learn_alpha,
+            learn_beta: schedule.learn_beta,
+            learn_every: schedule.learn_every,
+            samples: schedule.samples,
+            lag: schedule.lag,
+            trace_every: schedule.trace_every,
+        }
+    }
+
+    fn into_schedule(self) -> Result<Schedule, String> {
+        let sampler = SamplerKind::from_name(&self.sampler)
+            .ok_or_else(|| format!("the sampler `{}` is unknown to this version", self.sampler))?;
+        Ok(Schedule {
+            sampler,
+            shards: self.shards,
+            burn_in: self.burn_in,
+            learn_alpha: self.learn_alpha,
+            learn_beta: self.learn_beta,
+            learn_every: self.learn_every,
+            samples: self.samples,
+            lag: self.lag,
+            trace_every: self.trace_every,
+        })
+    }
+}
+
 /// The schedule of format 2.
-#[derive(Clone, Copy, Serialize, Deserialize)]
+#[derive(Clone, Copy, Deserialize)]
 struct ScheduleV2 {
     sampler: SamplerV2,
     shards: u32,
@@ -267,31 +338,14 @@ struct ScheduleV2 {
 }
 
 impl ScheduleV2 {
-    fn of(schedule: &Schedule) -> ScheduleV2 {
-        ScheduleV2 {
-            sampler: match schedule.sampler {
-                SamplerKind::Reference => SamplerV2::Reference,
-                SamplerKind::Exact => SamplerV2::Exact,
-                SamplerKind::Metropolis => SamplerV2::Metropolis,
-            },
-            shards: schedule.shards,
-            burn_in: schedule.burn_in,
-            learn_alpha: schedule.learn_alpha,
-            learn_beta: schedule.learn_beta,
-            learn_every: schedule.learn_every,
-            samples: schedule.samples,
-            lag: schedule.lag,
-            trace_every: schedule.trace_every,
-        }
-    }
-
-    fn into_schedule(self) -> Schedule {
-        Schedule {
-            sampler: match self.sampler {
-                SamplerV2::Reference => SamplerKind::Reference,
-                SamplerV2::Exact => SamplerKind::Exact,
-                SamplerV2::Metropolis => SamplerKind::Metropolis,
-            },
+    fn upgrade(self) -> ScheduleV3<'static> {
+        let sampler = match self.sampler {
+            SamplerV2::Reference => SamplerKind::Reference,
+            SamplerV2::Exact => SamplerKind::Exact,
+            SamplerV2::Metropolis => SamplerKind::Metropolis,
+        };
+        ScheduleV3 {
+            sampler: std::borrow::Cow::Borrowed(sampler.name()),
             shards: self.shards,
             burn_in: self.burn_in,
             learn_alpha: self.learn_alpha,
@@ -300,6 +354,30 @@ impl ScheduleV2 {
             samples: self.samples,
             lag: self.lag,
             trace_every: self.trace_every,
+        }
+    }
+}
+
+impl ModelV2 {
+    /// The same model in the format-3 shape: topic ids `0..K`.
+    fn upgrade(self) -> ModelV3 {
+        ModelV3 {
+            corpus: self.corpus.upgrade(),
+            topic_ids: (0..self.n_topics).collect(),
+            n_topics: self.n_topics,
+            priors: self.priors,
+            assignments: self.assignments,
+            topic_word: self.topic_word,
+            doc_topic: self.doc_topic,
+            iterations_done: self.iterations_done,
+            target: self.target,
+            schedule: self.schedule.upgrade(),
+            seed: self.seed,
+            rng: self.rng,
+            trace: self.trace,
+            alpha_trace: self.alpha_trace,
+            beta_trace: self.beta_trace,
+            samples: self.samples,
         }
     }
 }
@@ -496,7 +574,7 @@ fn check_schedule(schedule: &Schedule, iterations_done: u64, target: u64) -> Res
     Ok(())
 }
 
-impl ModelV2 {
+impl ModelV3 {
     /// The model in memory, once every invariant is checked: the corpus,
     /// K within the limit, priors that fit, one topic below K per token,
     /// stored counts equal to those the assignments imply, a sane schedule,
@@ -530,8 +608,19 @@ impl ModelV2 {
                 self.assignments[position]
             )));
         }
-        let schedule = self.schedule.into_schedule();
+        let schedule = self.schedule.into_schedule().map_err(invalid)?;
         check_schedule(&schedule, self.iterations_done, self.target).map_err(invalid)?;
+        if self.topic_ids.len() != n_topics {
+            return Err(invalid(format!(
+                "{} topic ids for {n_topics} topics",
+                self.topic_ids.len()
+            )));
+        }
+        let mut distinct_ids = self.topic_ids.clone();
+        distinct_ids.sort_unstable();
+        if distinct_ids.windows(2).any(|pair| pair[0] == pair[1]) {
+            return Err(invalid("two topics share an id".to_string()));
+        }
         if self.rng == [0; 4] {
             return Err(invalid("the random stream's state is all zero".to_string()));
         }
@@ -575,6 +664,7 @@ impl ModelV2 {
             alpha_trace: self.alpha_trace,
             beta_trace: self.beta_trace,
             samples,
+            topic_ids: self.topic_ids,
         })
     }
 }
@@ -637,18 +727,19 @@ mod tests {
             },
             iterations_done: model.iterations_done,
             target: model.target,
-            schedule: ScheduleV2::of(&model.schedule),
+            schedule: ScheduleV3::of(&model.schedule),
             seed: model.seed,
             rng: rng_state(&model.rng),
             trace: &model.trace,
             alpha_trace: &model.alpha_trace,
             beta_trace: &model.beta_trace,
             samples: &model.samples,
+            topic_ids: &model.topic_ids,
         };
         damage(&mut shape);
         let bytes = format::encode(FileKind::Model, &shape, path).unwrap();
         format::decode_versioned(FileKind::Model, &bytes, path, |_, payload| {
-            format::decode_payload::<ModelV2>(payload, path)
+            format::decode_payload::<ModelV3>(payload, path)
         })?
         .into_model(path)
     }
@@ -728,6 +819,12 @@ mod tests {
             ),
             ("sweeps are done of a run that ends", Box::new(|m| m.target = 1)),
             ("state is all zero", Box::new(|m| m.rng = [0; 4])),
+            (
+                "sampler `gibbs-deluxe` is unknown",
+                Box::new(|m| m.schedule.sampler = "gibbs-deluxe".into()),
+            ),
+            ("1 topic ids for 2 topics", Box::new(|m| m.topic_ids = &[7])),
+            ("two topics share an id", Box::new(|m| m.topic_ids = &[4, 4])),
             (
                 "alpha trace at sweep 0",
                 Box::new(|m| m.alpha_trace = &short_trace),

@@ -45,8 +45,8 @@ impl FileKind {
     /// The format version this build writes.
     pub fn current_version(self) -> u32 {
         match self {
-            FileKind::Corpus => 1,
-            FileKind::Model => 2,
+            FileKind::Corpus => 2,
+            FileKind::Model => 3,
         }
     }
 
@@ -168,13 +168,6 @@ pub fn decode_payload<T: DeserializeOwned>(payload: &[u8], path: &Path) -> Resul
     Ok(value)
 }
 
-/// Checks the header of a framed file image and decodes its payload, for a
-/// kind with one readable version (kinds with several use [`decode_versioned`]).
-pub fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) -> Result<T, FormatError> {
-    debug_assert_eq!(kind.oldest_version(), kind.current_version());
-    decode_versioned(kind, bytes, path, |_, payload| decode_payload(payload, path))
-}
-
 /// Checks the header of a framed file image (any version from
 /// [`FileKind::oldest_version`] to the current one) and decodes its payload
 /// with `decode_payload(version, payload)`.
@@ -236,11 +229,6 @@ pub fn read_bytes(path: &Path) -> Result<Vec<u8>, FormatError> {
             _ => FormatError::io(path, err),
         })?;
     Ok(bytes)
-}
-
-/// Reads and decodes a framed file of a kind with one readable version.
-pub fn read_file<T: DeserializeOwned>(kind: FileKind, path: &Path) -> Result<T, FormatError> {
-    decode(kind, &read_bytes(path)?, path)
 }
 
 /// Encodes `value` and writes it to `path` crash-safely.
@@ -416,6 +404,11 @@ fn swap_folders(a: &Path, b: &Path) -> io::Result<()> {
 mod tests {
     use super::*;
 
+    /// Decodes a test payload, whatever the version in the header.
+    fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) -> Result<T, FormatError> {
+        decode_versioned(kind, bytes, path, |_, payload| decode_payload(payload, path))
+    }
+
     #[derive(serde::Serialize, serde::Deserialize, Debug, PartialEq)]
     struct Sample {
         words: Vec<String>,
@@ -434,7 +427,7 @@ mod tests {
         let folder = tempfile::tempdir().unwrap();
         let path = folder.path().join("x.bin");
         write_file(FileKind::Corpus, &sample(), &path).unwrap();
-        let back: Sample = read_file(FileKind::Corpus, &path).unwrap();
+        let back: Sample = decode(FileKind::Corpus, &read_bytes(&path).unwrap(), &path).unwrap();
         assert_eq!(back, sample());
     }
 

@@ -92,6 +92,10 @@ pub struct Model {
     pub beta_trace: Vec<(u64, f64)>,
     /// Posterior samples of the current run (the last one is the final state).
     pub samples: Vec<Sample>,
+    /// The id of each topic, by index: `0..K` for a model fitted on its own;
+    /// under a run root, ids carried over from the published model by
+    /// matching, so that a topic keeps its id (and its name) from run to run.
+    pub topic_ids: Vec<u32>,
 }
 
 /// The topic-word and document-topic counts of a state as sparse rows.

@@ -233,6 +233,7 @@ pub fn urn_corpus(settings: &UrnCorpusSettings) -> (Corpus, Vec<crate::fitting::
     }
     let documents = (0..offsets.len() - 1)
         .map(|idx| crate::ingest::corpus::DocumentInfo {
+            date: None,
             id: format!("doc-{idx}"),
             label: None,
             source: String::new(),

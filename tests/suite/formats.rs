@@ -128,9 +128,6 @@ fn version_two_model_files_load_and_continue() {
     let pedal = model.corpus.vocabulary.id("pedal").unwrap() as usize;
     assert!((model.topic_word_row(0)[kettle] - 0.3092668241280714).abs() < 1e-12);
     assert!((model.topic_word_row(1)[pedal] - 0.2687931634173267).abs() < 1e-12);
-    // Written again, it gives the fixture's bytes exactly: the file's own
-    // shapes (src/model/file.rs) still write format 2 as it was written then.
-    assert_eq!(model.encode(&path).unwrap(), std::fs::read(&path).unwrap());
     // Continuing it runs the stored sampler, the same way every time.
     let continued = || {
         let mut model = Model::load(&path).unwrap();
@@ -142,4 +139,48 @@ fn version_two_model_files_load_and_continue() {
         model.encode(&path).unwrap()
     };
     assert_eq!(continued(), continued());
+}
+
+#[test]
+fn version_three_model_files_load_and_write_back_the_same_bytes() {
+    // Source: tests/fixtures/model-v3.bin, written by the version that
+    // introduced format 3 (after commit af4c1b2) with `fit -k 2 --iterations
+    // 30 --burn-in 10 --samples 2 --lag 5 --trace-every 5 --seed 5 --sampler
+    // metropolis --shards 2` on tests/fixtures/corpus-v2.bin; the weights
+    // below are what `show --format tsv` printed then.
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/model-v3.bin");
+    let model = Model::load(&path).unwrap();
+    assert_eq!(model.topic_ids, vec![0, 1]);
+    assert_eq!(model.schedule.shards, 2);
+    let bicycle = model.corpus.vocabulary.id("bicycle").unwrap() as usize;
+    let kettle = model.corpus.vocabulary.id("kettle").unwrap() as usize;
+    assert!((model.topic_word_row(0)[bicycle] - 0.2800371506548105).abs() < 1e-12);
+    assert!((model.topic_word_row(1)[kettle] - 0.34024763729490226).abs() < 1e-12);
+    // Written again, it gives the fixture's bytes exactly: the file's own
+    // shapes (src/model/file.rs) still write format 3 as it was written then.
+    assert_eq!(model.encode(&path).unwrap(), std::fs::read(&path).unwrap());
+}
+
+#[test]
+fn corpus_files_of_both_versions_load_the_same_corpus() {
+    // Source: tests/fixtures/corpus-v1.bin was written by themata before
+    // format 2 (commit e8f4842) and corpus-v2.bin by the version that
+    // introduced it, both with `build tests/fixtures/model-v1-source.jsonl
+    // --stopwords none --min-docs 1 --max-doc-share 1`; format 1 has no
+    // dates and no surface forms, and the input has neither, so both read
+    // to the same corpus.
+    let fixtures = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures");
+    let old = load_corpus(&fixtures.join("corpus-v1.bin")).unwrap();
+    let new = load_corpus(&fixtures.join("corpus-v2.bin")).unwrap();
+    assert_eq!(old, new);
+    assert_eq!(new.n_tokens(), 28);
+    assert_eq!(new.documents[0].id, "a");
+    // Written again, the format-2 file gives its bytes exactly.
+    let scratch = Scratch::new();
+    let again = scratch.path("c.bin");
+    save_corpus(&new, &again).unwrap();
+    assert_eq!(
+        std::fs::read(&again).unwrap(),
+        std::fs::read(fixtures.join("corpus-v2.bin")).unwrap()
+    );
 }

@@ -138,6 +138,7 @@ pub(super) fn read_csv<R: Read>(
     };
     let id_column = find(&options.id_field);
     let label_column = find(&options.label_field);
+    let date_column = find(&options.date_field);
 
     let mut record = csv::ByteRecord::new();
     loop {
@@ -209,6 +210,20 @@ pub(super) fn read_csv<R: Read>(
                 continue;
             }
         };
+        let date = match date_column.map(cell) {
+            None => None,
+            Some(Ok(date)) if date.trim().is_empty() => None,
+            Some(Ok(date)) => Some(date.trim().to_string()),
+            Some(Err(_)) => {
+                collector.skip(
+                    DiagnosticKind::InvalidUtf8,
+                    origin,
+                    Some(id),
+                    not_utf8(&options.date_field),
+                );
+                continue;
+            }
+        };
         let text = match cell(text_column) {
             Ok(text) => text.to_string(),
             Err(_) => {
@@ -225,6 +240,7 @@ pub(super) fn read_csv<R: Read>(
             id,
             text,
             label,
+            date,
             origin,
         });
     }

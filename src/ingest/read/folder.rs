@@ -170,6 +170,7 @@ pub(super) fn offer_text(bytes: Vec<u8>, id: String, origin_name: String, collec
         id,
         text,
         label: None,
+        date: None,
         origin: Origin {
             file: origin_name,
             line: None,

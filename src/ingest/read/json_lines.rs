@@ -118,6 +118,17 @@ fn read_json_line(
             return;
         }
     };
+    let date = match scalar_field(fields.get(&options.date_field)) {
+        Ok(date) => date.map(|date| date.trim().to_string()),
+        Err(kind) => {
+            let message = format!(
+                "field `{}` must be a string or a number, not {kind}",
+                options.date_field
+            );
+            collector.skip(DiagnosticKind::BadRecord, origin, Some(id), message);
+            return;
+        }
+    };
     let text = match fields.remove(&options.text_field) {
         Some(Value::String(text)) => text,
         other => {
@@ -134,6 +145,7 @@ fn read_json_line(
         id,
         text,
         label,
+        date,
         origin,
     });
 }
@@ -220,16 +232,18 @@ mod tests {
     #[test]
     fn json_lines_field_names_come_from_the_options() {
         let options = ReadOptions {
+            date_field: "when".into(),
             format: InputFormat::Jsonl,
             text_field: "body".into(),
             id_field: "key".into(),
             label_field: "topic".into(),
         };
-        let bytes = b"{\"key\": \"k1\", \"body\": \"the body\", \"topic\": \"t\", \"text\": \"ignored\"}\n{\"text\": \"only text\"}\n";
+        let bytes = b"{\"key\": \"k1\", \"body\": \"the body\", \"topic\": \"t\", \"when\": \" 2024-03-01 \", \"text\": \"ignored\"}\n{\"text\": \"only text\"}\n";
         let outcome = run_json_lines(bytes, &options);
         // Source: common practice (field names are settings, not fixed).
         assert_eq!(outcome.ids(), ["k1"]);
         assert_eq!(outcome.documents[0].text, "the body");
+        assert_eq!(outcome.documents[0].date.as_deref(), Some("2024-03-01"));
         assert_eq!(outcome.documents[0].label.as_deref(), Some("t"));
         assert_eq!(outcome.kinds(), [DiagnosticKind::BadRecord]);
         assert_eq!(

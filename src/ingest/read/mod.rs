@@ -55,6 +55,9 @@ pub const DEFAULT_ID_FIELD: &str = "id";
 /// The field or column holding a document's label when none is named.
 pub const DEFAULT_LABEL_FIELD: &str = "label";
 
+/// The field or column holding a document's date when none is named.
+pub const DEFAULT_DATE_FIELD: &str = "date";
+
 /// How to interpret an input path.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize, clap::ValueEnum)]
 #[serde(rename_all = "lowercase")]
@@ -81,6 +84,8 @@ pub struct ReadOptions {
     pub id_field: String,
     /// The JSON field or CSV column holding the document label (optional).
     pub label_field: String,
+    /// The JSON field or CSV column holding the document date (optional).
+    pub date_field: String,
 }
 
 impl Default for ReadOptions {
@@ -90,6 +95,7 @@ impl Default for ReadOptions {
             text_field: DEFAULT_TEXT_FIELD.into(),
             id_field: DEFAULT_ID_FIELD.into(),
             label_field: DEFAULT_LABEL_FIELD.into(),
+            date_field: DEFAULT_DATE_FIELD.into(),
         }
     }
 }
@@ -103,6 +109,9 @@ pub struct RawDocument {
     pub text: String,
     /// The document's label, when the input has one.
     pub label: Option<String>,
+    /// The document's date as written in the input, when it has one (not
+    /// checked here: a report counts the dates it cannot read).
+    pub date: Option<String>,
     /// Where the document was read from.
     pub origin: Origin,
 }
