@@ -31,6 +31,7 @@ pub mod fitting;
 pub mod ingest;
 pub mod model;
 pub mod report;
+pub mod publish;
 pub mod settings;
 pub mod testbed;
 

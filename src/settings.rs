@@ -18,6 +18,7 @@ use crate::fitting::fit::{
     DEFAULT_TRACE_EVERY, FitSettings, PriorSpec,
 };
 use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
+use crate::evaluate::drift::DEFAULT_MATCH_THRESHOLD;
 use crate::fitting::schedule::{EXACT_UP_TO_TOPICS, SamplerChoice, SamplerKind};
 use crate::ingest::read::{
     DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, InputFormat, ReadOptions,
@@ -147,6 +148,11 @@ impl ShareRange {
     pub const BELOW_ONE: ShareRange = ShareRange {
         low_included: true,
         high_included: false,
+    };
+    /// From 0 to 1, both included.
+    pub const CLOSED: ShareRange = ShareRange {
+        low_included: true,
+        high_included: true,
     };
     /// Strictly between 0 and 1 (a probability of an interval).
     pub const OPEN: ShareRange = ShareRange {
@@ -501,6 +507,12 @@ pub struct FitOptions {
         help = help("Shards for parallel sweeps: documents and words are each cut into N parts, giving N x N blocks; fixed per model, so the thread count never changes the result", default_shards_help())
     )]
     pub shards: Option<usize>,
+    #[arg(
+        long,
+        value_name = "published|DIR",
+        help = help("Start from a previous model instead of at random: `published` (the run root's published model, with `run`) or a model folder; unchanged documents keep their topics, the rest are drawn against the previous topics; needs the same number of topics", "a random start")
+    )]
+    pub start_from: Option<String>,
 }
 overlay!(FitOptions {
     topics,
@@ -516,7 +528,8 @@ overlay!(FitOptions {
     trace_every,
     holdout,
     sampler,
-    shards
+    shards,
+    start_from
 });
 
 /// The worker threads asked for, or every core when none is given.
@@ -528,6 +541,18 @@ pub fn resolve_threads(threads: Option<usize>) -> Result<usize, SettingsError> {
     }
 }
 
+/// Where a warm start begins.
+#[derive(Clone, Debug, PartialEq)]
+pub enum StartFrom {
+    /// The published model of the run root (`run` with a `[publish]` root).
+    Published,
+    /// The model of this model folder.
+    Folder(PathBuf),
+}
+
+/// The `start_from` value that names the published model.
+pub const START_FROM_PUBLISHED: &str = "published";
+
 /// Fit settings plus the thread count (which never changes the result) and
 /// the held-out fraction.
 #[derive(Clone, Debug, PartialEq)]
@@ -535,6 +560,8 @@ pub struct FitPlan {
     pub settings: FitSettings,
     pub threads: usize,
     pub holdout: f64,
+    /// A warm start, when asked for.
+    pub start_from: Option<StartFrom>,
 }
 
 impl FitOptions {
@@ -562,10 +589,17 @@ impl FitOptions {
         check_fit_settings(&settings)?;
         let holdout = self.holdout.unwrap_or(DEFAULT_HOLDOUT);
         ShareRange::BELOW_ONE.check("holdout", holdout)?;
+        let start_from = match self.start_from.as_deref().map(str::trim) {
+            None => None,
+            Some("") => return Err(invalid("start_from", "must be `published` or a model folder")),
+            Some(START_FROM_PUBLISHED) => Some(StartFrom::Published),
+            Some(folder) => Some(StartFrom::Folder(PathBuf::from(folder))),
+        };
         Ok(FitPlan {
             holdout,
             settings,
             threads: resolve_threads(self.threads)?,
+            start_from,
         })
     }
 }
@@ -684,6 +718,128 @@ pub struct OutputOptions {
 }
 overlay!(OutputOptions { dir, top_words });
 
+/// How many published runs a run root keeps, by default.
+pub const DEFAULT_KEEP: usize = 7;
+
+/// Where `run` publishes: a run root holding dated run folders, a pointer to
+/// the published one, the topic-id counter and the names file.
+#[derive(Args, Deserialize, Clone, Debug, Default, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct PublishOptions {
+    #[arg(
+        long,
+        value_name = "DIR",
+        help = help("Run root: each run writes a new dated folder under it, published runs are reached through ROOT/current, topics keep their ids from run to run", "none: write the output folder of [output]")
+    )]
+    pub root: Option<PathBuf>,
+    #[arg(long, value_name = "N", value_parser = AT_LEAST_ONE.parser::<usize>(), help = help("Published runs kept under the root; older ones are removed after the pointer moves", DEFAULT_KEEP))]
+    pub keep: Option<usize>,
+    #[arg(
+        long,
+        value_name = "D",
+        value_parser = ShareRange::ABOVE_ZERO.parser(),
+        help = help("A new topic takes the id of the published topic it is matched to when their Jensen-Shannon distance is below D (0 to 1; the distance is at most 0.83)", DEFAULT_MATCH_THRESHOLD)
+    )]
+    pub match_threshold: Option<f64>,
+}
+overlay!(PublishOptions {
+    root,
+    keep,
+    match_threshold
+});
+
+/// Resolved publishing settings.
+#[derive(Clone, Debug, PartialEq)]
+pub struct PublishPlan {
+    pub root: PathBuf,
+    pub keep: usize,
+    pub match_threshold: f64,
+}
+
+impl PublishOptions {
+    /// The publishing plan, or `None` when no root is set.
+    pub fn resolve(&self) -> Result<Option<PublishPlan>, SettingsError> {
+        let Some(root) = &self.root else {
+            return Ok(None);
+        };
+        let keep = self.keep.unwrap_or(DEFAULT_KEEP);
+        AT_LEAST_ONE.check("keep", keep as u64)?;
+        let match_threshold = self.match_threshold.unwrap_or(DEFAULT_MATCH_THRESHOLD);
+        ShareRange::ABOVE_ZERO.check("match_threshold", match_threshold)?;
+        Ok(Some(PublishPlan {
+            root: root.clone(),
+            keep,
+            match_threshold,
+        }))
+    }
+}
+
+/// Conditions a run must meet before it is published; each is off unless set.
+#[derive(Args, Deserialize, Clone, Debug, Default, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct GateOptions {
+    #[arg(
+        long,
+        value_name = "F",
+        value_parser = ShareRange::CLOSED.parser(),
+        help = help("Least share of the new topics that must match a published topic (0 to 1)", "no condition")
+    )]
+    pub min_matched_share: Option<f64>,
+    #[arg(
+        long,
+        value_name = "F",
+        value_parser = non_negative_parser,
+        help = help("Largest relative rise of held-out perplexity against the published model, both scored on tonight's held-out documents (0.05 = 5%; needs holdout)", "no condition")
+    )]
+    pub max_perplexity_rise: Option<f64>,
+    #[arg(
+        long,
+        value_name = "X",
+        value_parser = npmi_parser,
+        help = help("Least mean NPMI of the topics' top words on the training documents (-1 to 1)", "no condition")
+    )]
+    pub min_mean_npmi: Option<f64>,
+}
+overlay!(GateOptions {
+    min_matched_share,
+    max_perplexity_rise,
+    min_mean_npmi
+});
+
+/// Parses a number of at least 0.
+fn non_negative_parser(text: &str) -> Result<f64, String> {
+    text.trim()
+        .parse::<f64>()
+        .ok()
+        .filter(|value| value.is_finite() && *value >= 0.0)
+        .ok_or_else(|| format!("`{text}` is not a number of at least 0"))
+}
+
+/// Parses an NPMI bound, from -1 to 1.
+fn npmi_parser(text: &str) -> Result<f64, String> {
+    text.trim()
+        .parse::<f64>()
+        .ok()
+        .filter(|value| (-1.0..=1.0).contains(value))
+        .ok_or_else(|| format!("`{text}` is not a number from -1 to 1"))
+}
+
+impl GateOptions {
+    /// Checks the conditions' values.
+    pub fn check(&self) -> Result<(), SettingsError> {
+        if let Some(share) = self.min_matched_share {
+            ShareRange::CLOSED.check("min_matched_share", share)?;
+        }
+        if let Some(rise) = self.max_perplexity_rise {
+            non_negative_parser(&rise.to_string()).map_err(|message| invalid("max_perplexity_rise", message))?;
+        }
+        if let Some(npmi) = self.min_mean_npmi {
+            npmi_parser(&npmi.to_string()).map_err(|message| invalid("min_mean_npmi", message))?;
+        }
+        Ok(())
+    }
+}
+
 /// A whole run as a config file describes it.
 #[derive(Deserialize, Clone, Debug, Default, PartialEq)]
 #[serde(deny_unknown_fields)]
@@ -698,6 +854,10 @@ pub struct RunConfig {
     pub fit: FitOptions,
     #[serde(default)]
     pub output: OutputOptions,
+    #[serde(default)]
+    pub publish: PublishOptions,
+    #[serde(default)]
+    pub gate: GateOptions,
 }
 
 /// 1-based line of a byte offset in `text`.
@@ -781,6 +941,13 @@ impl RunConfig {
             }
         }
         config.output.dir = config.output.dir.as_ref().map(rebase);
+        config.publish.root = config.publish.root.as_ref().map(rebase);
+        if let Some(start) = &mut config.fit.start_from
+            && start.trim() != START_FROM_PUBLISHED
+            && !Path::new(start.trim()).is_absolute()
+        {
+            *start = lexical_join(&base, Path::new(start.trim())).to_string_lossy().into_owned();
+        }
         config.vocabulary.keep_words = config.vocabulary.keep_words.as_ref().map(rebase);
         config.vocabulary.drop_words = config.vocabulary.drop_words.as_ref().map(rebase);
         if let Some(specs) = &mut config.tokenizer.stopwords {
@@ -825,6 +992,8 @@ impl RunConfig {
                 .check("top_words", top_words as u64)
                 .map_err(|err| at("output", err))?;
         }
+        self.publish.resolve().map_err(|err| at("publish", err))?;
+        self.gate.check().map_err(|err| at("gate", err))?;
         Ok(())
     }
 }
@@ -833,7 +1002,7 @@ impl RunConfig {
 /// `docs/config.md` is this text; a test fails when it is stale.
 pub fn config_reference() -> String {
     use clap::{Args as _, Command};
-    let sections: [(&str, Command); 5] = [
+    let sections: [(&str, Command); 7] = [
         ("input", InputOptions::augment_args(Command::new("input"))),
         (
             "tokenizer",
@@ -845,6 +1014,8 @@ pub fn config_reference() -> String {
         ),
         ("fit", FitOptions::augment_args(Command::new("fit"))),
         ("output", OutputOptions::augment_args(Command::new("output"))),
+        ("publish", PublishOptions::augment_args(Command::new("publish"))),
+        ("gate", GateOptions::augment_args(Command::new("gate"))),
     ];
     let mut out = String::from(
         "# Config file keys\n\nGenerated from the option definitions in `src/settings.rs`; \

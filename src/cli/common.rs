@@ -8,10 +8,15 @@ use std::path::{Path, PathBuf};
 
 use themata::evaluate::score;
 use themata::fitting::fit::{self, FitTiming};
+use themata::fitting::warm::{self, WarmStart};
+use themata::evaluate::uncertainty::DEFAULT_LEVEL;
+use themata::model::folder;
+use themata::model::format::StagedFolder;
+use themata::report::{self, DocumentListing, ListingFormat, TopicListing, WordLimit};
 use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus};
 use themata::model::Model;
 use themata::model::summary::FitSummary;
-use themata::settings::{FitPlan, InputOptions, TokenizerOptions, VocabularyOptions};
+use themata::settings::{FitPlan, InputOptions, StartFrom, TokenizerOptions, VocabularyOptions};
 
 use super::Failure;
 use super::progress::SweepProgress;
@@ -166,21 +171,59 @@ pub fn score_holdout(model: &Model, held: &Corpus, threads: usize) -> Result<sco
         .map_err(Failure::system)
 }
 
-/// Fits a fresh model with a progress bar on a worker pool (used by `run`),
-/// scoring the `--holdout` documents when asked.
+/// A fitted model with what `run` reports of its fit.
+pub struct Fitted {
+    pub model: Model,
+    pub timing: FitTiming,
+    /// The documents `holdout` kept out, and their score.
+    pub heldout: Option<(Corpus, score::HeldOutScore)>,
+    /// What a warm start kept and drew.
+    pub warm: Option<WarmStart>,
+}
+
+/// Fits a model with a progress bar on a worker pool (used by `run`): from
+/// `previous` when given (a warm start), else at random; scores the
+/// `holdout` documents when asked.
 pub fn fit_model(
     corpus: Corpus,
     plan: &FitPlan,
+    previous: Option<&Model>,
     quiet: bool,
-) -> Result<(Model, FitTiming, Option<score::HeldOutScore>), Failure> {
+) -> Result<Fitted, Failure> {
     let (train, held) = split_for_holdout(corpus, plan)?;
-    let mut model = fit::start(train, &plan.settings)?;
+    let (mut model, warm) = match previous {
+        Some(previous) => {
+            let (model, warm) = warm::start_warm(train, &plan.settings, previous)?;
+            (model, Some(warm))
+        }
+        None => (fit::start(train, &plan.settings)?, None),
+    };
     let timing = sample(&mut model, plan.threads, None, quiet)?;
-    let heldout = match &held {
-        Some(held) => Some(score_holdout(&model, held, plan.threads)?),
+    let heldout = match held {
+        Some(held) => {
+            let score = score_holdout(&model, &held, plan.threads)?;
+            Some((held, score))
+        }
         None => None,
     };
-    Ok((model, timing, heldout))
+    Ok(Fitted {
+        model,
+        timing,
+        heldout,
+        warm,
+    })
+}
+
+/// The model a `start_from` folder names (`published` needs a run root and
+/// is resolved by the caller).
+pub fn warm_start_model(plan: &FitPlan) -> Result<Option<Model>, Failure> {
+    match &plan.start_from {
+        None => Ok(None),
+        Some(StartFrom::Folder(dir)) => Ok(Some(folder::load_model(dir)?)),
+        Some(StartFrom::Published) => Err(Failure::bad_input(anyhow::anyhow!(
+            "start_from = \"published\" needs a run root: set `root` in the [publish] section, or name a model folder"
+        ))),
+    }
 }
 
 /// What was fitted, and a warning when the trace has not levelled off.
@@ -224,5 +267,39 @@ pub fn print_convergence(summary: &FitSummary) {
                 "themata: warning: too few log-likelihood points after burn-in to judge convergence; record more (--trace-every) or run longer"
             ),
         }
+    }
+}
+
+/// Writes `topics.tsv` and `documents.tsv` of a run into `staged` and
+/// returns the listings (for the printed report).
+pub fn stage_listings(
+    staged: &StagedFolder,
+    model: &Model,
+    top_words: usize,
+) -> Result<(Vec<TopicListing>, Vec<DocumentListing>), Failure> {
+    let topics =
+        report::topic_listings(model, WordLimit::Top(top_words), DEFAULT_LEVEL).map_err(Failure::system)?;
+    let documents = report::document_listings(model, DEFAULT_LEVEL).map_err(Failure::system)?;
+    let mut topics_tsv = Vec::new();
+    report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv).map_err(Failure::system)?;
+    staged.write("topics.tsv", &topics_tsv)?;
+    let mut documents_tsv = Vec::new();
+    report::write_documents(&mut documents_tsv, &documents, ListingFormat::Tsv).map_err(Failure::system)?;
+    staged.write("documents.tsv", &documents_tsv)?;
+    Ok((topics, documents))
+}
+
+/// Prints a run's topic table and, when documents carry labels, how well
+/// their top topics agree with them.
+pub fn print_run_report(topics: &[TopicListing], documents: &[DocumentListing]) {
+    let mut table = Vec::new();
+    if report::write_topics(&mut table, topics, ListingFormat::Table).is_ok() {
+        print!("{}", String::from_utf8_lossy(&table));
+    }
+    if let Some(agreement) = report::label_agreement(documents) {
+        println!(
+            "label agreement: normalised mutual information {:.3} between each document's top topic and its label ({} labelled documents, {} labels)",
+            agreement.nmi, agreement.documents, agreement.labels
+        );
     }
 }

@@ -3,7 +3,7 @@
 
 use std::path::PathBuf;
 
-use themata::fitting::fit;
+use themata::fitting::{fit, warm};
 use themata::model::Model;
 use themata::model::corpus_file::load_corpus;
 use themata::model::folder::{self, checkpoint_path};
@@ -11,7 +11,7 @@ use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
 use themata::settings::{self, FitOptions};
 
-use super::common::{print_fit_line, sample, score_holdout, split_for_holdout};
+use super::common::{print_fit_line, sample, score_holdout, split_for_holdout, warm_start_model};
 use super::{Failure, FitArgs};
 
 /// How `fit` was asked to start.
@@ -40,10 +40,15 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
                 Failure::bad_input(anyhow::anyhow!("--out DIR is required when fitting a corpus"))
             })?;
             let plan = args.fit.resolve()?;
+            let previous = warm_start_model(&plan)?;
             let corpus = load_corpus(corpus_path)?;
             let (train, held) = split_for_holdout(corpus, &plan)?;
             heldout = held;
-            (fit::start(train, &plan.settings)?, out, plan.threads)
+            let model = match &previous {
+                Some(previous) => warm::start_warm(train, &plan.settings, previous)?.0,
+                None => fit::start(train, &plan.settings)?,
+            };
+            (model, out, plan.threads)
         }
         Start::Continue(dir) => {
             refuse_changed_settings(&args.fit)?;

@@ -8,6 +8,7 @@ mod common;
 mod fit;
 mod progress;
 mod run;
+mod run_root;
 mod score;
 mod show;
 mod sweep;
@@ -19,9 +20,13 @@ use themata::fitting::fit::FitError;
 use themata::ingest::corpus::CorpusError;
 use themata::model::format::FormatError;
 use themata::settings::{
-    FitOptions, InputOptions, OutputOptions, SettingsError, TokenizerOptions, VocabularyOptions,
+    FitOptions, GateOptions, InputOptions, OutputOptions, PublishOptions, SettingsError, TokenizerOptions,
+    VocabularyOptions,
 };
 
+/// Exit code of a run the quality gate refused (its folder is kept, the
+/// published run stays).
+pub const EXIT_GATE_FAILED: u8 = 1;
 /// Exit code for bad input or usage.
 pub const EXIT_BAD_INPUT: u8 = 2;
 /// Exit code for I/O or internal failures.
@@ -50,6 +55,14 @@ impl Failure {
         Failure {
             code: EXIT_FAILURE,
             error: error.into(),
+        }
+    }
+
+    /// A run the quality gate refused; `reason` says why.
+    pub fn gate_failed(reason: String) -> Failure {
+        Failure {
+            code: EXIT_GATE_FAILED,
+            error: anyhow::anyhow!(reason),
         }
     }
 
@@ -103,6 +116,16 @@ impl From<themata::model::folder::FolderError> for Failure {
     }
 }
 
+impl From<themata::publish::PublishError> for Failure {
+    fn from(err: themata::publish::PublishError) -> Failure {
+        if err.is_bad_input() {
+            Failure::bad_input(err)
+        } else {
+            Failure::system(err)
+        }
+    }
+}
+
 impl From<FormatError> for Failure {
     fn from(err: FormatError) -> Failure {
         if err.is_bad_input() {
@@ -117,7 +140,9 @@ impl From<FormatError> for Failure {
 /// LDA by collapsed Gibbs sampling, and show the topics and document mixtures.
 #[derive(Parser, Debug)]
 #[command(name = "themata", version, about, long_about = None)]
-#[command(after_help = "Exit codes: 0 success, 2 bad input or usage, 3 I/O or internal failure.")]
+#[command(
+    after_help = "Exit codes: 0 success (with `run` under a run root: published), 1 the quality gate refused the run, 2 bad input, usage, config or a run root held by another run, 3 I/O or internal failure."
+)]
 pub struct Cli {
     #[command(subcommand)]
     pub command: Command,
@@ -233,6 +258,10 @@ pub struct RunArgs {
     pub fit: FitOptions,
     #[command(flatten, next_help_heading = "Output (overrides the config file)")]
     pub output: OutputOptions,
+    #[command(flatten, next_help_heading = "Publishing (overrides the config file)")]
+    pub publish: PublishOptions,
+    #[command(flatten, next_help_heading = "Gate (overrides the config file)")]
+    pub gate: GateOptions,
     /// No progress bar; print only the report
     #[arg(long, short)]
     pub quiet: bool,

@@ -1,14 +1,15 @@
 //! `themata run`: build, fit and report as a config file describes, into one
 //! output folder that is replaced whole only when everything succeeded.
 
-use themata::evaluate::uncertainty::DEFAULT_LEVEL;
 use themata::model::folder::stage_model;
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
-use themata::report::{self, ListingFormat, WordLimit};
-use themata::settings::RunConfig;
+use themata::settings::{GateOptions, RunConfig};
 
-use super::common::{build_corpus, fit_model, print_fit_line};
+use super::common::{
+    Fitted, build_corpus, fit_model, print_fit_line, print_run_report, stage_listings, warm_start_model,
+};
+use super::run_root::{self, RootRun};
 use super::{Failure, RunArgs};
 
 /// Runs `themata run`.
@@ -27,19 +28,44 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
             args.config.display()
         )));
     }
+    let top_words = output.top_words.unwrap_or(themata::settings::DEFAULT_TOP_WORDS);
+    let gate = config.gate.overlay(args.gate);
+    gate.check()?;
+    if let Some(publish) = config.publish.overlay(args.publish).resolve()? {
+        return run_root::run(RootRun {
+            config: &args.config,
+            inputs: &inputs,
+            input: &input,
+            tokenizer: &tokenizer,
+            vocabulary: &vocabulary,
+            plan: &plan,
+            publish: &publish,
+            gate: &gate,
+            top_words,
+            quiet: args.quiet,
+        });
+    }
+    if gate != GateOptions::default() {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "{}: a [gate] decides what a run root publishes; set `root` in the [publish] section or drop the gate",
+            args.config.display()
+        )));
+    }
     let out_dir = output.dir.clone().ok_or_else(|| {
         Failure::bad_input(anyhow::anyhow!(
-            "{}: no output folder; set `dir` in the [output] section or pass --out",
+            "{}: no output folder; set `dir` in the [output] section (or `root` in [publish]) or pass --out",
             args.config.display()
         ))
     })?;
-    let top_words = output.top_words.unwrap_or(themata::settings::DEFAULT_TOP_WORDS);
     let staged = StagedFolder::begin(&out_dir)?;
 
     let (corpus, build_summary) = build_corpus(&inputs, &input, &tokenizer, &vocabulary, args.quiet)?;
     let corpus_bytes = themata::model::corpus_file::encode_corpus(&corpus, &staged.path("corpus.bin"))?;
     staged.write("corpus.bin", &corpus_bytes)?;
-    let (model, timing, heldout) = fit_model(corpus, &plan, args.quiet)?;
+    let previous = warm_start_model(&plan)?;
+    let Fitted {
+        model, timing, heldout, ..
+    } = fit_model(corpus, &plan, previous.as_ref(), args.quiet)?;
     let mut summary = FitSummary::new(
         &model,
         plan.threads,
@@ -47,33 +73,15 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         timing.tokens_per_second(),
     )
     .with_peak_rss(themata::testbed::memory::peak_rss_bytes());
-    if let Some(score) = heldout {
+    if let Some((_, score)) = heldout {
         summary = summary.with_heldout(score);
     }
-
-    let topics =
-        report::topic_listings(&model, WordLimit::Top(top_words), DEFAULT_LEVEL).map_err(Failure::system)?;
-    let documents = report::document_listings(&model, DEFAULT_LEVEL).map_err(Failure::system)?;
-    let mut topics_tsv = Vec::new();
-    report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv).map_err(Failure::system)?;
-    staged.write("topics.tsv", &topics_tsv)?;
-    let mut documents_tsv = Vec::new();
-    report::write_documents(&mut documents_tsv, &documents, ListingFormat::Tsv).map_err(Failure::system)?;
-    staged.write("documents.tsv", &documents_tsv)?;
+    let (topics, documents) = stage_listings(&staged, &model, top_words)?;
     let build_json = serde_json::to_vec_pretty(&build_summary).map_err(Failure::system)?;
     staged.write("build.json", &build_json)?;
     stage_model(&staged, &model, &summary)?;
     staged.commit()?;
-
-    let mut table = Vec::new();
-    report::write_topics(&mut table, &topics, ListingFormat::Table).map_err(Failure::system)?;
-    print!("{}", String::from_utf8_lossy(&table));
-    if let Some(agreement) = report::label_agreement(&documents) {
-        println!(
-            "label agreement: normalised mutual information {:.3} between each document's top topic and its label ({} labelled documents, {} labels)",
-            agreement.nmi, agreement.documents, agreement.labels
-        );
-    }
+    print_run_report(&topics, &documents);
     if !args.quiet {
         print_fit_line(&summary, &out_dir);
     }

@@ -9,6 +9,7 @@
 pub mod coherence;
 pub mod compare;
 pub mod diagnostics;
+pub mod drift;
 pub mod heldout;
 pub mod k_search;
 pub mod score;

@@ -158,6 +158,10 @@ pub enum FitError {
     CorpusTooLarge { tokens: usize, max: usize },
     #[error("learning the priors failed: {0}")]
     Learning(#[from] crate::fitting::priors::PriorError),
+    #[error(
+        "a warm start needs the previous model's number of topics: it has {previous} topics, this fit asks for {asked}; set topics = {previous} or start cold"
+    )]
+    WarmTopics { previous: usize, asked: usize },
 }
 
 /// What the caller is told while fitting.
@@ -295,12 +299,25 @@ pub fn start(corpus: Corpus, settings: &FitSettings) -> Result<Model, FitError> 
     let (priors, schedule) = resolve(&corpus, settings)?;
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(settings.seed);
     let state = CountState::random(&corpus, settings.n_topics, &mut rng);
+    Ok(start_from_state(corpus, settings, priors, schedule, state, rng))
+}
+
+/// A model at iteration 0 from a starting state (random, or warm from a
+/// previous model), with its traces begun.
+pub(crate) fn start_from_state(
+    corpus: Corpus,
+    settings: &FitSettings,
+    priors: Priors,
+    schedule: Schedule,
+    state: CountState,
+    rng: Xoshiro256PlusPlus,
+) -> Model {
     let initial = sampler::log_likelihood(&state, &corpus, &priors).total();
     let beta_trace = match &priors.beta {
         BetaPrior::Symmetric(value) => vec![(0, *value)],
         BetaPrior::Asymmetric(_) => Vec::new(),
     };
-    Ok(Model {
+    Model {
         corpus,
         alpha_trace: vec![(0, priors.alpha.clone())],
         beta_trace,
@@ -314,7 +331,7 @@ pub fn start(corpus: Corpus, settings: &FitSettings) -> Result<Model, FitError> 
         trace: vec![(0, initial)],
         samples: Vec::new(),
         topic_ids: (0..settings.n_topics as u32).collect(),
-    })
+    }
 }
 
 /// Fits a model to `corpus` from scratch.

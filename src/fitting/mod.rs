@@ -7,3 +7,4 @@ pub mod fit;
 pub mod priors;
 pub mod sampler;
 pub mod schedule;
+pub mod warm;

@@ -352,6 +352,24 @@ impl StagedFolder {
         self.committed = true;
         Ok(self.target.clone())
     }
+
+    /// Moves the staging folder into place under another name in the same
+    /// folder (a run the gate refused is kept as `<run>.rejected`); the
+    /// name must be free.
+    pub fn commit_as(mut self, name: &str) -> Result<PathBuf, FormatError> {
+        let target = parent_of(&self.target).join(name);
+        sync_folder(&self.staging);
+        if target.exists() {
+            return Err(FormatError::NotOutputFolder {
+                path: target,
+                marker: OUTPUT_MARKER,
+            });
+        }
+        fs::rename(&self.staging, &target).map_err(|err| FormatError::io(&target, err))?;
+        sync_folder(&parent_of(&target));
+        self.committed = true;
+        Ok(target)
+    }
 }
 
 impl Drop for StagedFolder {
