@@ -30,8 +30,8 @@ pub mod evaluate;
 pub mod fitting;
 pub mod ingest;
 pub mod model;
-pub mod report;
 pub mod publish;
+pub mod report;
 pub mod settings;
 pub mod testbed;
 

@@ -13,12 +13,12 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 use serde::Deserialize;
 
+use crate::evaluate::drift::DEFAULT_MATCH_THRESHOLD;
 use crate::fitting::fit::{
     DEFAULT_BURN_IN, DEFAULT_ITERATIONS, DEFAULT_LAG, DEFAULT_LEARN_EVERY, DEFAULT_SAMPLES, DEFAULT_SEED,
     DEFAULT_TRACE_EVERY, FitSettings, PriorSpec,
 };
 use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
-use crate::evaluate::drift::DEFAULT_MATCH_THRESHOLD;
 use crate::fitting::schedule::{EXACT_UP_TO_TOPICS, SamplerChoice, SamplerKind};
 use crate::ingest::read::{
     DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, InputFormat, ReadOptions,
@@ -831,7 +831,8 @@ impl GateOptions {
             ShareRange::CLOSED.check("min_matched_share", share)?;
         }
         if let Some(rise) = self.max_perplexity_rise {
-            non_negative_parser(&rise.to_string()).map_err(|message| invalid("max_perplexity_rise", message))?;
+            non_negative_parser(&rise.to_string())
+                .map_err(|message| invalid("max_perplexity_rise", message))?;
         }
         if let Some(npmi) = self.min_mean_npmi {
             npmi_parser(&npmi.to_string()).map_err(|message| invalid("min_mean_npmi", message))?;
@@ -867,6 +868,26 @@ fn line_of(text: &str, offset: usize) -> usize {
         .filter(|&b| b == b'\n')
         .count()
         + 1
+}
+
+/// `section.key` set on 1-based line `line`, if that line sets a key.
+fn key_at_line(text: &str, line: usize) -> Option<String> {
+    let mut section = String::new();
+    for (idx, content) in text.lines().enumerate() {
+        let trimmed = content.trim();
+        if let Some(name) = trimmed.strip_prefix('[').and_then(|rest| rest.strip_suffix(']')) {
+            section = name.trim().to_string();
+        } else if idx + 1 == line {
+            let (key, _) = trimmed.split_once('=')?;
+            let key = key.trim().trim_matches('"');
+            return Some(if section.is_empty() {
+                key.to_string()
+            } else {
+                format!("{section}.{key}")
+            });
+        }
+    }
+    None
 }
 
 /// 1-based line where `key` is set inside `[section]`, if it can be found.
@@ -919,10 +940,19 @@ impl RunConfig {
             path: path.to_path_buf(),
             message: format!("cannot read the config file: {err}"),
         })?;
-        let mut config: RunConfig = toml::from_str(&text).map_err(|err| SettingsError::InFile {
-            path: path.to_path_buf(),
-            line: err.span().map_or(1, |span| line_of(&text, span.start)),
-            message: err.message().trim().to_string(),
+        let mut config: RunConfig = toml::from_str(&text).map_err(|err| {
+            let line = err.span().map_or(1, |span| line_of(&text, span.start));
+            let message = err.message().trim().to_string();
+            // Name the key of that line, unless the message already does.
+            let message = match key_at_line(&text, line) {
+                Some(key) if !message.contains(&key) => format!("{key}: {message}"),
+                _ => message,
+            };
+            SettingsError::InFile {
+                path: path.to_path_buf(),
+                line,
+                message,
+            }
         })?;
         config.validate_in_file(path, &text)?;
         let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
@@ -946,7 +976,9 @@ impl RunConfig {
             && start.trim() != START_FROM_PUBLISHED
             && !Path::new(start.trim()).is_absolute()
         {
-            *start = lexical_join(&base, Path::new(start.trim())).to_string_lossy().into_owned();
+            *start = lexical_join(&base, Path::new(start.trim()))
+                .to_string_lossy()
+                .into_owned();
         }
         config.vocabulary.keep_words = config.vocabulary.keep_words.as_ref().map(rebase);
         config.vocabulary.drop_words = config.vocabulary.drop_words.as_ref().map(rebase);

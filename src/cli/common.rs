@@ -7,15 +7,15 @@ use std::ops::ControlFlow;
 use std::path::{Path, PathBuf};
 
 use themata::evaluate::score;
+use themata::evaluate::uncertainty::DEFAULT_LEVEL;
 use themata::fitting::fit::{self, FitTiming};
 use themata::fitting::warm::{self, WarmStart};
-use themata::evaluate::uncertainty::DEFAULT_LEVEL;
-use themata::model::folder;
-use themata::model::format::StagedFolder;
-use themata::report::{self, DocumentListing, ListingFormat, TopicListing, WordLimit};
 use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus};
 use themata::model::Model;
+use themata::model::folder;
+use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
+use themata::report::{self, DocumentListing, ListingFormat, TopicListing, WordLimit};
 use themata::settings::{FitPlan, InputOptions, StartFrom, TokenizerOptions, VocabularyOptions};
 
 use super::Failure;
@@ -144,11 +144,22 @@ pub fn sample(
 }
 
 /// Splits off the `--holdout` documents (none when the fraction is 0).
-pub fn split_for_holdout(corpus: Corpus, plan: &FitPlan) -> Result<(Corpus, Option<Corpus>), Failure> {
+/// With `stable`, each document's side depends on its id alone (runs under a
+/// run root, whose gate compares nights); else exactly round(F x D)
+/// documents chosen by the seed.
+pub fn split_for_holdout(
+    corpus: Corpus,
+    plan: &FitPlan,
+    stable: bool,
+) -> Result<(Corpus, Option<Corpus>), Failure> {
     if plan.holdout <= 0.0 {
         return Ok((corpus, None));
     }
-    let mask = score::holdout_mask(&corpus, plan.holdout, plan.settings.seed);
+    let mask = if stable {
+        score::stable_holdout_mask(&corpus, plan.holdout)
+    } else {
+        score::holdout_mask(&corpus, plan.holdout, plan.settings.seed)
+    };
     if !mask.iter().any(|&held| held) {
         return Err(Failure::bad_input(anyhow::anyhow!(
             "--holdout {} keeps no document out of {}; raise it or drop it",
@@ -188,9 +199,10 @@ pub fn fit_model(
     corpus: Corpus,
     plan: &FitPlan,
     previous: Option<&Model>,
+    stable_split: bool,
     quiet: bool,
 ) -> Result<Fitted, Failure> {
-    let (train, held) = split_for_holdout(corpus, plan)?;
+    let (train, held) = split_for_holdout(corpus, plan, stable_split)?;
     let (mut model, warm) = match previous {
         Some(previous) => {
             let (model, warm) = warm::start_warm(train, &plan.settings, previous)?;

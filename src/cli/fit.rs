@@ -42,7 +42,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
             let plan = args.fit.resolve()?;
             let previous = warm_start_model(&plan)?;
             let corpus = load_corpus(corpus_path)?;
-            let (train, held) = split_for_holdout(corpus, &plan)?;
+            let (train, held) = split_for_holdout(corpus, &plan, false)?;
             heldout = held;
             let model = match &previous {
                 Some(previous) => warm::start_warm(train, &plan.settings, previous)?.0,

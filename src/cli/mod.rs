@@ -5,6 +5,7 @@ mod assign;
 mod bench;
 mod build;
 mod common;
+mod compare;
 mod fit;
 mod progress;
 mod run;
@@ -165,6 +166,8 @@ pub enum Command {
     Score(score::ScoreArgs),
     /// Fit several numbers of topics and recommend one
     Sweep(sweep::SweepArgs),
+    /// Match the topics of two model folders and show how they drifted
+    Compare(compare::CompareArgs),
     /// Measure the fast samplers against the reference on synthetic corpora
     Bench(bench::BenchArgs),
 }
@@ -305,6 +308,7 @@ pub fn run(cli: Cli) -> Result<(), Failure> {
         Command::Assign(args) => assign::run(args),
         Command::Score(args) => score::run(args),
         Command::Sweep(args) => sweep::run(args),
+        Command::Compare(args) => compare::run(args),
         Command::Bench(args) => bench::run(args),
     }
 }

@@ -64,8 +64,11 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     staged.write("corpus.bin", &corpus_bytes)?;
     let previous = warm_start_model(&plan)?;
     let Fitted {
-        model, timing, heldout, ..
-    } = fit_model(corpus, &plan, previous.as_ref(), args.quiet)?;
+        model,
+        timing,
+        heldout,
+        ..
+    } = fit_model(corpus, &plan, previous.as_ref(), false, args.quiet)?;
     let mut summary = FitSummary::new(
         &model,
         plan.threads,

@@ -139,7 +139,10 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         ));
     }
     for leftover in root.remove_leftovers()? {
-        log.warn(format!("removed {}, left by a run that did not finish", leftover.display()));
+        log.warn(format!(
+            "removed {}, left by a run that did not finish",
+            leftover.display()
+        ));
     }
     let mut counters = Counters::load(&root.counters())?;
     let number = counters.next_run;
@@ -177,7 +180,8 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
     let staged = StagedFolder::begin(&root.run_dir(&name))?;
     log.stage_done("prepare");
 
-    let (corpus, build_summary) = build_corpus(job.inputs, job.input, job.tokenizer, job.vocabulary, job.quiet)?;
+    let (corpus, build_summary) =
+        build_corpus(job.inputs, job.input, job.tokenizer, job.vocabulary, job.quiet)?;
     let skipped: usize = build_summary.skipped.values().sum();
     log.line(
         "build",
@@ -214,7 +218,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         timing,
         heldout,
         warm,
-    } = fit_model(corpus, job.plan, warm_from, job.quiet)?;
+    } = fit_model(corpus, job.plan, warm_from, true, job.quiet)?;
     if let Some(warm) = &warm {
         log.line(
             "fit",
@@ -285,7 +289,9 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         .as_ref()
         .map(|previous| drift::drift(previous, &model, job.publish.match_threshold));
     let identities: Identities = match (&previous, &drift) {
-        (Some(previous), Some(drift)) => identity::assign_ids(drift, &previous.topic_ids, counters.next_topic_id),
+        (Some(previous), Some(drift)) => {
+            identity::assign_ids(drift, &previous.topic_ids, counters.next_topic_id)
+        }
         _ => identity::first_ids(model.n_topics(), counters.next_topic_id),
     };
     // Reserve the fresh ids before any file holds them.
@@ -302,7 +308,11 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
                 model.n_topics() - matched,
                 identities.retired.len()
             ),
-            None => format!("first run under this root: topics get ids {}..{}", identities.ids[0], identities.next_id - 1),
+            None => format!(
+                "first run under this root: topics get ids {}..{}",
+                identities.ids[0],
+                identities.next_id - 1
+            ),
         },
     );
     log.stage_done("match");
@@ -365,6 +375,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
             documents_read: build_summary.documents_read,
             documents_kept: build_summary.documents_kept,
             documents_skipped: skipped,
+            skipped_by_reason: build_summary.skipped.clone(),
             documents_held_out: heldout.as_ref().map_or(0, |(held, _)| held.n_docs()),
             tokens: model.corpus.n_tokens(),
             vocabulary: model.corpus.vocabulary.len(),
@@ -400,21 +411,47 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
     }
     let run_dir = staged.commit()?;
     root.point_to(&name)?;
-    let mut after = RunLog::new(job.quiet);
-    after.line("publish", format!("{} now points to {name}", root.pointer().display()));
+    let mut after = RunLog {
+        lines: Vec::new(),
+        ..log
+    };
+    after.line(
+        "publish",
+        format!("{} now points to {name}", root.pointer().display()),
+    );
     for removed in root.prune(job.publish.keep)? {
-        after.line("prune", format!("removed run {removed} (keeping the newest {})", job.publish.keep));
+        after.line(
+            "prune",
+            format!("removed run {removed} (keeping the newest {})", job.publish.keep),
+        );
     }
     if names.is_some() {
         let suggestions: Vec<(u32, String)> = record
             .topics
             .iter()
             .filter(|topic| topic.predecessor.is_none())
-            .map(|topic| (topic.id, topic.top_words.iter().take(3).cloned().collect::<Vec<_>>().join(", ")))
+            .map(|topic| {
+                (
+                    topic.id,
+                    topic
+                        .top_words
+                        .iter()
+                        .take(3)
+                        .cloned()
+                        .collect::<Vec<_>>()
+                        .join(", "),
+                )
+            })
             .collect();
         match names::append_suggestions(&root.names(), &suggestions, &format!("run {name}")) {
             Ok(0) => {}
-            Ok(added) => after.line("names", format!("suggested names for {added} new topics in {}", root.names().display())),
+            Ok(added) => after.line(
+                "names",
+                format!(
+                    "suggested names for {added} new topics in {}",
+                    root.names().display()
+                ),
+            ),
             Err(err) => after.warn(format!("could not add name suggestions: {err}")),
         }
     }

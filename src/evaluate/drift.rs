@@ -60,10 +60,8 @@ impl UnionWords {
                 }
             }
         }
-        let mut next_second = next_first;
-        for id in second_ids.iter_mut().filter(|id| **id == u32::MAX) {
+        for (next_second, id) in (next_first..).zip(second_ids.iter_mut().filter(|id| **id == u32::MAX)) {
             *id = next_second;
-            next_second += 1;
         }
         UnionWords {
             first: first_ids,
@@ -240,7 +238,11 @@ impl Drift {
         if self.topics.is_empty() {
             return 0.0;
         }
-        let matched = self.topics.iter().filter(|t| t.predecessor_index.is_some()).count();
+        let matched = self
+            .topics
+            .iter()
+            .filter(|t| t.predecessor_index.is_some())
+            .count();
         matched as f64 / self.topics.len() as f64
     }
 }
@@ -286,11 +288,19 @@ pub fn drift(old: &Model, new: &Model, threshold: f64) -> Drift {
                 prevalence_before: predecessor_index.map(|old_index| old_shares[old_index]),
                 prevalence_after: new_shares[index],
                 words_gained: if predecessor_index.is_some() {
-                    top_words.iter().filter(|w| !before.contains(w)).cloned().collect()
+                    top_words
+                        .iter()
+                        .filter(|w| !before.contains(w))
+                        .cloned()
+                        .collect()
                 } else {
                     Vec::new()
                 },
-                words_lost: before.iter().filter(|w| !top_words.contains(w)).cloned().collect(),
+                words_lost: before
+                    .iter()
+                    .filter(|w| !top_words.contains(w))
+                    .cloned()
+                    .collect(),
                 top_words,
             }
         })
@@ -298,7 +308,9 @@ pub fn drift(old: &Model, new: &Model, threshold: f64) -> Drift {
     Drift {
         threshold,
         topics,
-        unmatched_old: (0..old.n_topics()).filter(|&old_index| !successor[old_index]).collect(),
+        unmatched_old: (0..old.n_topics())
+            .filter(|&old_index| !successor[old_index])
+            .collect(),
     }
 }
 

@@ -31,7 +31,11 @@ pub struct WarmStart {
 
 /// Starts a model of `corpus` from `previous` (see the module notes); the
 /// rest of the run is as `fit::start` would have it.
-pub fn start_warm(corpus: Corpus, settings: &FitSettings, previous: &Model) -> Result<(Model, WarmStart), FitError> {
+pub fn start_warm(
+    corpus: Corpus,
+    settings: &FitSettings,
+    previous: &Model,
+) -> Result<(Model, WarmStart), FitError> {
     if settings.n_topics != previous.n_topics() {
         return Err(FitError::WarmTopics {
             previous: previous.n_topics(),
@@ -108,7 +112,9 @@ pub fn start_warm(corpus: Corpus, settings: &FitSettings, previous: &Model) -> R
                     *slot = running;
                 }
                 let target = rng.random::<f64>() * running;
-                let topic = cumulative.partition_point(|&edge| edge <= target).min(n_topics - 1);
+                let topic = cumulative
+                    .partition_point(|&edge| edge <= target)
+                    .min(n_topics - 1);
                 counts[topic] += 1;
                 assignments.push(topic as Topic);
             }
@@ -147,7 +153,10 @@ mod tests {
         assert_eq!(stats.kept_documents, corpus.n_docs() - 1);
         assert_eq!(stats.folded_documents, 1);
         let kept_end = corpus.offsets[last] as usize;
-        assert_eq!(model.state.assignments[..kept_end], previous.state.assignments[..kept_end]);
+        assert_eq!(
+            model.state.assignments[..kept_end],
+            previous.state.assignments[..kept_end]
+        );
         assert_eq!(model.state.assignments.len(), corpus.n_tokens());
         // Same inputs and seed, same start.
         let (again, _) = start_warm(corpus, &settings, &previous).unwrap();
@@ -157,7 +166,12 @@ mod tests {
     #[test]
     fn a_different_number_of_topics_is_refused() {
         let data = synthetic::two_topics(1);
-        let (previous, _) = fit(data.corpus.clone(), &FitSettings::fixed(2, 10, 0.5, 0.1, 9), &mut |_| {}).unwrap();
+        let (previous, _) = fit(
+            data.corpus.clone(),
+            &FitSettings::fixed(2, 10, 0.5, 0.1, 9),
+            &mut |_| {},
+        )
+        .unwrap();
         let err = start_warm(data.corpus, &FitSettings::fixed(3, 10, 0.5, 0.1, 9), &previous).unwrap_err();
         assert!(err.to_string().contains("2 topics"), "{err}");
     }

@@ -47,6 +47,9 @@ pub struct FitSummary {
     /// Peak resident memory of the process that fitted the model, in bytes
     /// (null where the system does not tell).
     pub peak_rss_bytes: Option<u64>,
+    /// The id of each topic, by index (0..K-1 outside a run root; under a
+    /// run root, ids kept from run to run).
+    pub topic_ids: Vec<u32>,
 }
 
 /// Version of the summary.json layout.
@@ -95,6 +98,7 @@ impl FitSummary {
             heldout_perplexity: None,
             heldout: None,
             peak_rss_bytes: None,
+            topic_ids: model.topic_ids.clone(),
         }
     }
 

@@ -38,7 +38,11 @@ impl UtcTime {
         let day_of_year = day_of_era - (365 * year_of_era + year_of_era / 4 - year_of_era / 100);
         let month_index = (5 * day_of_year + 2) / 153;
         let day = (day_of_year - (153 * month_index + 2) / 5 + 1) as u32;
-        let month = if month_index < 10 { month_index + 3 } else { month_index - 9 } as u32;
+        let month = if month_index < 10 {
+            month_index + 3
+        } else {
+            month_index - 9
+        } as u32;
         let year = year_of_era + era * 400 + i64::from(month <= 2);
         UtcTime {
             year,
@@ -79,7 +83,10 @@ mod tests {
         // 2000-02-29T00:00:00Z (common practice: widely quoted values, checked
         // with `date -u -d @N`).
         assert_eq!(UtcTime::from_unix(0).rfc3339(), "1970-01-01T00:00:00Z");
-        assert_eq!(UtcTime::from_unix(1_000_000_000).rfc3339(), "2001-09-09T01:46:40Z");
+        assert_eq!(
+            UtcTime::from_unix(1_000_000_000).rfc3339(),
+            "2001-09-09T01:46:40Z"
+        );
         assert_eq!(UtcTime::from_unix(951_782_400).rfc3339(), "2000-02-29T00:00:00Z");
         assert_eq!(UtcTime::from_unix(-1).rfc3339(), "1969-12-31T23:59:59Z");
         assert_eq!(UtcTime::from_unix(1_000_000_000).compact(), "20010909T014640Z");

@@ -101,7 +101,16 @@ mod tests {
         std::fs::write(&path, "{\"format_version\": 1, \"next_run\": \"x\"}").unwrap();
         let err = Counters::load(&path).unwrap_err().to_string();
         assert!(err.contains("counters.json") && err.contains("line 1"), "{err}");
-        std::fs::write(&path, "{\"format_version\": 9, \"next_run\": 1, \"next_topic_id\": 0}").unwrap();
-        assert!(Counters::load(&path).unwrap_err().to_string().contains("version 9"));
+        std::fs::write(
+            &path,
+            "{\"format_version\": 9, \"next_run\": 1, \"next_topic_id\": 0}",
+        )
+        .unwrap();
+        assert!(
+            Counters::load(&path)
+                .unwrap_err()
+                .to_string()
+                .contains("version 9")
+        );
     }
 }

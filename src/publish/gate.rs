@@ -90,7 +90,10 @@ pub fn evaluate(gate: &GateOptions, figures: &GateFigures) -> GateOutcome {
                 (false, None)
             }
             Some(_) => (true, None),
-            None => (true, Some("no published model, or no held-out perplexity for both models".to_string())),
+            None => (
+                true,
+                Some("no published model, or no held-out perplexity for both models".to_string()),
+            ),
         };
         conditions.push(GateCondition {
             condition: "max_perplexity_rise",
@@ -123,7 +126,10 @@ pub fn evaluate(gate: &GateOptions, figures: &GateFigures) -> GateOutcome {
         if conditions.is_empty() {
             "No gate conditions are set; the run is published.".to_string()
         } else {
-            format!("The run met all {} gate conditions and is published.", conditions.len())
+            format!(
+                "The run met all {} gate conditions and is published.",
+                conditions.len()
+            )
         }
     } else {
         let mut text = String::from("The run was not published: ");
@@ -168,7 +174,11 @@ mod tests {
         };
         let outcome = evaluate(&gate, &bad);
         assert!(!outcome.passed);
-        assert!(outcome.reason.contains("only 50.0% of the new topics matched"), "{}", outcome.reason);
+        assert!(
+            outcome.reason.contains("only 50.0% of the new topics matched"),
+            "{}",
+            outcome.reason
+        );
         assert!(outcome.reason.contains("rose by 10.0%"), "{}", outcome.reason);
         assert!(!outcome.reason.contains("NPMI"), "{}", outcome.reason);
         let first_run = GateFigures {

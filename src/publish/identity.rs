@@ -38,7 +38,11 @@ pub fn assign_ids(drift: &Drift, old_ids: &[u32], next_id: u32) -> Identities {
             }
         }
     }
-    let mut retired: Vec<u32> = drift.unmatched_old.iter().map(|&old_index| old_ids[old_index]).collect();
+    let mut retired: Vec<u32> = drift
+        .unmatched_old
+        .iter()
+        .map(|&old_index| old_ids[old_index])
+        .collect();
     retired.sort_unstable();
     Identities {
         ids,
@@ -81,7 +85,12 @@ mod tests {
         // Source: common practice (persistent identifiers: never reuse one).
         let drift = Drift {
             threshold: 0.5,
-            topics: vec![topic(0, Some(2)), topic(1, None), topic(2, Some(0)), topic(3, None)],
+            topics: vec![
+                topic(0, Some(2)),
+                topic(1, None),
+                topic(2, Some(0)),
+                topic(3, None),
+            ],
             unmatched_old: vec![1],
         };
         let identities = assign_ids(&drift, &[40, 41, 42], 57);

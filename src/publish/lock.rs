@@ -86,7 +86,10 @@ impl RootLock {
             Err(std::fs::TryLockError::WouldBlock) => {
                 return Err(PublishError::Locked {
                     path: path.to_path_buf(),
-                    holder: previous.map_or_else(|| "a process that has not written its name yet".into(), |h| h.to_string()),
+                    holder: previous.map_or_else(
+                        || "a process that has not written its name yet".into(),
+                        |h| h.to_string(),
+                    ),
                 });
             }
             Err(std::fs::TryLockError::Error(source)) => return Err(io(source)),

@@ -41,7 +41,11 @@ pub enum PublishError {
     Damaged { path: PathBuf, detail: String },
     /// The names file does not parse.
     #[error("{path}:{line}: {detail}")]
-    Names { path: PathBuf, line: usize, detail: String },
+    Names {
+        path: PathBuf,
+        line: usize,
+        detail: String,
+    },
     /// The pointer names something that is not a run folder of the root.
     #[error("{path}: the pointer names `{target}`, which is not a run folder of this root")]
     BadPointer { path: PathBuf, target: String },

@@ -40,9 +40,9 @@ impl TopicNames {
             detail,
         };
         let table: toml::Table = toml::from_str(text).map_err(|err| {
-            let line = err
-                .span()
-                .map_or(1, |span| text[..span.start.min(text.len())].matches('\n').count() + 1);
+            let line = err.span().map_or(1, |span| {
+                text[..span.start.min(text.len())].matches('\n').count() + 1
+            });
             damaged(line, err.message().trim().to_string())
         })?;
         let line_of = |key: &str| {
@@ -52,12 +52,17 @@ impl TopicNames {
         };
         let mut names = BTreeMap::new();
         for (key, value) in table {
-            let id: u32 = key
-                .trim_matches('"')
-                .parse()
-                .map_err(|_| damaged(line_of(&key), format!("`{key}` is not a topic id (a whole number)")))?;
+            let id: u32 = key.trim_matches('"').parse().map_err(|_| {
+                damaged(
+                    line_of(&key),
+                    format!("`{key}` is not a topic id (a whole number)"),
+                )
+            })?;
             let toml::Value::String(name) = value else {
-                return Err(damaged(line_of(&key), format!("the name of topic {id} must be a string in quotes")));
+                return Err(damaged(
+                    line_of(&key),
+                    format!("the name of topic {id} must be a string in quotes"),
+                ));
             };
             names.insert(id, name);
         }
@@ -86,7 +91,11 @@ impl TopicNames {
 /// `suggestions` that has neither a name nor a suggestion in the file yet;
 /// the editor's text is kept byte for byte in front. Returns how many were
 /// added. The file is replaced atomically.
-pub fn append_suggestions(path: &Path, suggestions: &[(u32, String)], note: &str) -> Result<usize, PublishError> {
+pub fn append_suggestions(
+    path: &Path,
+    suggestions: &[(u32, String)],
+    note: &str,
+) -> Result<usize, PublishError> {
     let text = match std::fs::read_to_string(path) {
         Ok(text) => text,
         Err(err) if err.kind() == std::io::ErrorKind::NotFound => String::new(),
@@ -136,14 +145,25 @@ mod tests {
     fn names_parse_by_id_and_errors_name_the_line() {
         // Source: TOML 1.0 (bare keys may be digits; basic strings in quotes).
         let path = Path::new("names.toml");
-        let names = TopicNames::parse("# editors' names\n7 = \"harbour works\"\n12 = \"school fête\"\n", path).unwrap();
+        let names = TopicNames::parse(
+            "# editors' names\n7 = \"harbour works\"\n12 = \"school fête\"\n",
+            path,
+        )
+        .unwrap();
         assert_eq!(names.get(7), Some("harbour works"));
         assert_eq!(names.get(12), Some("school fête"));
         assert_eq!(names.get(3), None);
-        let err = TopicNames::parse("7 = \"ok\"\n8 = unquoted words\n", path).unwrap_err().to_string();
+        let err = TopicNames::parse("7 = \"ok\"\n8 = unquoted words\n", path)
+            .unwrap_err()
+            .to_string();
         assert!(err.contains("names.toml:2:"), "{err}");
-        let err = TopicNames::parse("7 = \"ok\"\nharbour = \"x\"\n", path).unwrap_err().to_string();
-        assert!(err.contains("names.toml:2:") && err.contains("not a topic id"), "{err}");
+        let err = TopicNames::parse("7 = \"ok\"\nharbour = \"x\"\n", path)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("names.toml:2:") && err.contains("not a topic id"),
+            "{err}"
+        );
         let err = TopicNames::parse("9 = 3\n", path).unwrap_err().to_string();
         assert!(err.contains("must be a string"), "{err}");
     }

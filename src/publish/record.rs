@@ -46,6 +46,8 @@ pub struct RunCounts {
     pub documents_read: usize,
     pub documents_kept: usize,
     pub documents_skipped: usize,
+    /// Skipped documents by reason (the diagnostics are in build.json).
+    pub skipped_by_reason: std::collections::BTreeMap<String, usize>,
     pub documents_held_out: usize,
     pub tokens: usize,
     pub vocabulary: usize,

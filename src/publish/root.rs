@@ -144,8 +144,10 @@ impl RunRoot {
             for entry in fs::read_dir(&folder).map_err(io_error(&folder))? {
                 let entry = entry.map_err(io_error(&folder))?;
                 let name = entry.file_name().to_string_lossy().into_owned();
-                let staging = folder == self.runs_dir() && name.starts_with('.') && name.contains(".staging-");
-                let temporary = name.starts_with(".current.tmp-") || (name.starts_with('.') && name.contains(".tmp-"));
+                let staging =
+                    folder == self.runs_dir() && name.starts_with('.') && name.contains(".staging-");
+                let temporary =
+                    name.starts_with(".current.tmp-") || (name.starts_with('.') && name.contains(".tmp-"));
                 if staging || temporary {
                     found.push(entry.path());
                 }
@@ -241,15 +243,27 @@ mod tests {
         fake_run(&root, "20261201T020000Z-0001");
         fake_run(&root, "20261202T020000Z-0002");
         root.point_to("20261201T020000Z-0001").unwrap();
-        assert_eq!(root.published().unwrap().as_deref(), Some("20261201T020000Z-0001"));
+        assert_eq!(
+            root.published().unwrap().as_deref(),
+            Some("20261201T020000Z-0001")
+        );
         root.point_to("20261202T020000Z-0002").unwrap();
-        assert_eq!(root.published().unwrap().as_deref(), Some("20261202T020000Z-0002"));
-        assert!(root.pointer().join(MODEL_FILE).is_file(), "the link leads into the run folder");
+        assert_eq!(
+            root.published().unwrap().as_deref(),
+            Some("20261202T020000Z-0002")
+        );
+        assert!(
+            root.pointer().join(MODEL_FILE).is_file(),
+            "the link leads into the run folder"
+        );
         assert!(root.leftovers().unwrap().is_empty());
         // A pointer file (systems without links) is read the same way.
         fs::remove_file(root.pointer()).unwrap();
         fs::write(root.pointer(), "runs/20261201T020000Z-0001\n").unwrap();
-        assert_eq!(root.published().unwrap().as_deref(), Some("20261201T020000Z-0001"));
+        assert_eq!(
+            root.published().unwrap().as_deref(),
+            Some("20261201T020000Z-0001")
+        );
         fs::write(root.pointer(), "../elsewhere\n").unwrap();
         assert!(matches!(root.published(), Err(PublishError::BadPointer { .. })));
     }
@@ -270,11 +284,19 @@ mod tests {
         let removed = root.prune(2).unwrap();
         assert_eq!(
             removed,
-            vec!["20261201T020000Z-0001", "20261201T030000Z-0009.rejected", "20261203T020000Z-0003"]
+            vec![
+                "20261201T020000Z-0001",
+                "20261201T030000Z-0009.rejected",
+                "20261203T020000Z-0003"
+            ]
         );
         assert_eq!(
             root.runs().unwrap(),
-            vec!["20261202T020000Z-0002", "20261204T020000Z-0004", "20261205T020000Z-0005"]
+            vec![
+                "20261202T020000Z-0002",
+                "20261204T020000Z-0004",
+                "20261205T020000Z-0005"
+            ]
         );
         assert_eq!(root.leftovers().unwrap().len(), 1);
         root.remove_leftovers().unwrap();

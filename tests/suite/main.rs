@@ -8,6 +8,7 @@ mod formats;
 mod geweke;
 mod golden;
 mod learning;
+mod nightly;
 mod samplers;
 mod scoring;
 mod worked_examples;
