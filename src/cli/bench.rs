@@ -5,6 +5,7 @@
 use std::io::{self, IsTerminal, Write};
 
 use themata::testbed::bench::{self, Case, Convergence, LargeRun, ThroughputRow};
+use themata::testbed::warm_start::{WarmStartFigure, warm_start_case};
 
 use super::Failure;
 
@@ -32,6 +33,9 @@ pub struct BenchArgs {
     /// Sweeps of the --large run
     #[arg(long, value_name = "N", default_value_t = 100, requires = "large")]
     pub large_sweeps: usize,
+    /// Measure only the warm start of nightly retraining: tonight's corpus is last night's plus 10% new documents from the same topics; sweeps and seconds to the cold start's log-likelihood, cold against warm
+    #[arg(long, conflicts_with = "large")]
+    pub warm_start: bool,
 }
 
 /// Runs `themata bench`.
@@ -48,6 +52,26 @@ pub fn run(args: BenchArgs) -> Result<(), Failure> {
             let _ = std::io::stderr().flush();
         }
     };
+    if args.warm_start {
+        let case = if args.quick {
+            Case {
+                tokens: 30_000,
+                words: 2_000,
+                topics: 10,
+                sweeps: 40,
+            }
+        } else {
+            Case {
+                tokens: 2_200_000,
+                words: 20_000,
+                topics: 50,
+                sweeps: 300,
+            }
+        };
+        let figure = warm_start_case(&case, args.threads, &mut progress);
+        clear_progress(show_progress);
+        return print_warm_start(&mut std::io::stdout().lock(), &figure).or_else(super::ignore_broken_pipe);
+    }
     if args.large {
         if args.large_tokens < 1000 || args.large_sweeps == 0 {
             return Err(Failure::bad_input(anyhow::anyhow!(
@@ -424,4 +448,55 @@ fn print_targets(
         )?;
     }
     Ok(())
+}
+
+fn print_warm_start(out: &mut impl Write, figure: &WarmStartFigure) -> io::Result<()> {
+    let case = &figure.case;
+    writeln!(
+        out,
+        "warm start: last night {} documents, tonight {} (+10% new documents from the same topics); {} tokens tonight, V = {}, K = {}, {} sweeps",
+        figure.night_one_documents,
+        figure.night_two_documents,
+        case.tokens,
+        case.words,
+        case.topics,
+        case.sweeps
+    )?;
+    writeln!(
+        out,
+        "  warm start kept the topics of {} documents and drew {} against last night's topics",
+        figure.warm.kept_documents, figure.warm.folded_documents
+    )?;
+    writeln!(
+        out,
+        "  target: log-likelihood {:.6e} (mean of the cold run's last tenth of sweeps)",
+        figure.target
+    )?;
+    let reach = |sweeps: Option<usize>, seconds: Option<f64>| match (sweeps, seconds) {
+        (Some(sweeps), Some(seconds)) => format!("{sweeps} sweeps, {seconds:.1} s"),
+        _ => "not reached".to_string(),
+    };
+    writeln!(
+        out,
+        "  cold start reached it after {}",
+        reach(figure.cold_sweeps, figure.cold_seconds)
+    )?;
+    writeln!(
+        out,
+        "  warm start reached it after {} (its fold-in draws included)",
+        reach(figure.warm_sweeps, figure.warm_seconds)
+    )?;
+    let ratio = |value: Option<f64>| value.map_or("-".to_string(), |value| format!("{value:.3}"));
+    let sweeps = figure.sweep_ratio();
+    writeln!(
+        out,
+        "  warm / cold: {} of the sweeps, {} of the time; target at most 1/3 of the sweeps: {}",
+        ratio(sweeps),
+        ratio(figure.time_ratio()),
+        match sweeps {
+            Some(ratio) if ratio <= 1.0 / 3.0 => "met",
+            Some(_) => "not met",
+            None => "not measured",
+        }
+    )
 }
