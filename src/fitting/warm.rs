@@ -19,7 +19,7 @@ use crate::ingest::corpus::Corpus;
 use crate::model::Model;
 
 /// What a warm start kept and what it drew afresh.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct WarmStart {
     /// Documents whose assignments were carried over unchanged.
     pub kept_documents: usize,

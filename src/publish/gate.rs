@@ -2,7 +2,7 @@
 //! from the config's `[gate]` section, each checked against the run's
 //! figures, with a verdict and one readable paragraph saying why.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::settings::GateOptions;
 
@@ -21,22 +21,22 @@ pub struct GateFigures {
 }
 
 /// One condition of the gate and how the run fared.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct GateCondition {
     /// The config key, e.g. `min_matched_share`.
-    pub condition: &'static str,
+    pub condition: String,
     /// The limit set in the config.
     pub limit: f64,
     /// The run's figure (`None` when it does not apply, e.g. on the first run).
     pub value: Option<f64>,
     pub passed: bool,
     /// Why a condition that does not apply was passed.
-    #[serde(skip_serializing_if = "Option::is_none")]
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub note: Option<String>,
 }
 
 /// The gate's verdict.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct GateOutcome {
     pub passed: bool,
     pub conditions: Vec<GateCondition>,
@@ -66,7 +66,7 @@ pub fn evaluate(gate: &GateOptions, figures: &GateFigures) -> GateOutcome {
             None => (true, Some("nothing published yet to match against".to_string())),
         };
         conditions.push(GateCondition {
-            condition: "min_matched_share",
+            condition: "min_matched_share".to_string(),
             limit,
             value: figures.matched_share,
             passed,
@@ -96,7 +96,7 @@ pub fn evaluate(gate: &GateOptions, figures: &GateFigures) -> GateOutcome {
             ),
         };
         conditions.push(GateCondition {
-            condition: "max_perplexity_rise",
+            condition: "max_perplexity_rise".to_string(),
             limit,
             value: rise,
             passed,
@@ -114,7 +114,7 @@ pub fn evaluate(gate: &GateOptions, figures: &GateFigures) -> GateOutcome {
             });
         }
         conditions.push(GateCondition {
-            condition: "min_mean_npmi",
+            condition: "min_mean_npmi".to_string(),
             limit,
             value: figures.mean_npmi,
             passed,

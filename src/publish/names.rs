@@ -87,6 +87,16 @@ impl TopicNames {
     }
 }
 
+/// The names for the model folder `dir`: those of its run root when it is a
+/// run folder of one, else none. A names file that does not parse is an
+/// error for the caller to report (and go on without names).
+pub fn names_for_model_dir(dir: &Path) -> Result<TopicNames, PublishError> {
+    match super::root::root_of_run_dir(dir) {
+        Some(root) => TopicNames::load(&root.names()),
+        None => Ok(TopicNames::default()),
+    }
+}
+
 /// Appends, as comments, a suggested name for each topic id in
 /// `suggestions` that has neither a name nor a suggestion in the file yet;
 /// the editor's text is kept byte for byte in front. Returns how many were

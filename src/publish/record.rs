@@ -3,8 +3,11 @@
 //! for every topic its id, predecessor and drift. Monitoring reads it:
 //! `gate.passed` and the `topics` entries are a contract.
 
-use serde::Serialize;
+use std::path::Path;
 
+use serde::{Deserialize, Serialize};
+
+use super::PublishError;
 use super::gate::GateOutcome;
 use crate::fitting::warm::WarmStart;
 
@@ -12,14 +15,14 @@ use crate::fitting::warm::WarmStart;
 pub const RUN_RECORD_VERSION: u32 = 1;
 
 /// Seconds spent in one stage.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct StageTime {
     pub stage: String,
     pub seconds: f64,
 }
 
 /// One topic of the new model.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct TopicRecord {
     pub id: u32,
     /// Index of the topic in this run's model.
@@ -41,7 +44,7 @@ pub struct TopicRecord {
 }
 
 /// Document and token counts of the run.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct RunCounts {
     pub documents_read: usize,
     pub documents_kept: usize,
@@ -55,7 +58,7 @@ pub struct RunCounts {
 }
 
 /// Quality figures of the run.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct RunScores {
     pub heldout_perplexity: Option<f64>,
     /// The published model's perplexity on the same held-out documents.
@@ -69,7 +72,7 @@ pub struct RunScores {
 }
 
 /// The whole record.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct RunRecord {
     pub format_version: u32,
     pub themata_version: String,
@@ -92,4 +95,25 @@ pub struct RunRecord {
     pub topics: Vec<TopicRecord>,
     /// Ids of published topics that no topic of this run took over.
     pub retired: Vec<u32>,
+}
+
+/// The name of the run record in a run folder.
+pub const RUN_RECORD_FILE: &str = "run.json";
+
+impl RunRecord {
+    /// Reads the run record of run folder `dir`, if it has one.
+    pub fn load(dir: &Path) -> Result<Option<RunRecord>, PublishError> {
+        let path = dir.join(RUN_RECORD_FILE);
+        let bytes = match std::fs::read(&path) {
+            Ok(bytes) => bytes,
+            Err(err) if err.kind() == std::io::ErrorKind::NotFound => return Ok(None),
+            Err(source) => return Err(PublishError::Io { path, source }),
+        };
+        serde_json::from_slice(&bytes)
+            .map(Some)
+            .map_err(|err| PublishError::Damaged {
+                path,
+                detail: format!("line {}: {err}", err.line()),
+            })
+    }
 }

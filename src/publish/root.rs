@@ -16,6 +16,18 @@ use super::PublishError;
 use super::clock::UtcTime;
 use crate::model::folder::MODEL_FILE;
 
+/// The run root a run folder belongs to: `dir` (or what it links to, such
+/// as `ROOT/current`) must be `ROOT/runs/<run>` in a root with a counter
+/// file. `None` for a model folder outside a root.
+pub fn root_of_run_dir(dir: &Path) -> Option<RunRoot> {
+    let resolved = fs::canonicalize(dir).ok()?;
+    let runs = resolved.parent()?;
+    let root = runs.parent()?;
+    (runs.file_name()? == "runs" && root.join("counters.json").is_file()).then(|| RunRoot {
+        path: root.to_path_buf(),
+    })
+}
+
 /// Suffix of a run folder the gate refused.
 pub const REJECTED_SUFFIX: &str = ".rejected";
 

@@ -172,6 +172,13 @@ fn two_nights_keep_ids_names_and_show_small_drift() {
     // The published model loads through the pointer, with its ids.
     let model = themata::model::folder::load_model(&scratch.path("root/current")).unwrap();
     assert_eq!(model.topic_ids, (0..8).collect::<Vec<u32>>());
+    // Readers find the record and the names through the pointer.
+    let record = themata::publish::record::RunRecord::load(&scratch.path("root/current"))
+        .unwrap()
+        .unwrap();
+    assert_eq!(record.topics.len(), 8);
+    let names = themata::publish::names::names_for_model_dir(&scratch.path("root/current")).unwrap();
+    assert_eq!(names.get(6), Some("school news"));
 }
 
 /// Sweeps until the log-likelihood trace (one point per sweep) first
