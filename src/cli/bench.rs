@@ -464,8 +464,8 @@ fn print_warm_start(out: &mut impl Write, figure: &WarmStartFigure) -> io::Resul
     )?;
     writeln!(
         out,
-        "  warm start kept the topics of {} documents and drew {} against last night's topics",
-        figure.warm.kept_documents, figure.warm.folded_documents
+        "  warm start kept the topics of {} documents and drew {} against last night's topics in {:.2} s",
+        figure.warm.kept_documents, figure.warm.folded_documents, figure.warm_start_seconds
     )?;
     writeln!(
         out,

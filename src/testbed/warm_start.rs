@@ -32,6 +32,9 @@ pub struct WarmStartFigure {
     /// included in the seconds.
     pub warm_sweeps: Option<usize>,
     pub warm_seconds: Option<f64>,
+    /// Seconds of the warm start itself (carrying assignments over and the
+    /// fold-in draws), before the first sweep.
+    pub warm_start_seconds: f64,
     pub warm: WarmStart,
 }
 
@@ -121,6 +124,7 @@ pub fn warm_start_case(case: &Case, threads: usize, progress: &mut dyn FnMut(&st
     let (mut warm_model, warm) = pool
         .install(|| warm::start_warm(night_two, &settings, &previous))
         .expect("valid bench settings");
+    let warm_start_seconds = started.elapsed().as_secs_f64();
     let warm_points = pool.install(|| traced(&mut warm_model, started));
     let cold_reached = reached(&cold_points, target);
     let warm_reached = reached(&warm_points, target);
@@ -133,6 +137,7 @@ pub fn warm_start_case(case: &Case, threads: usize, progress: &mut dyn FnMut(&st
         cold_seconds: cold_reached.map(|(_, seconds)| seconds),
         warm_sweeps: warm_reached.map(|(sweeps, _)| sweeps),
         warm_seconds: warm_reached.map(|(_, seconds)| seconds),
+        warm_start_seconds,
         warm,
     }
 }
