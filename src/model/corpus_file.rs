@@ -30,7 +30,12 @@ pub fn encode_corpus(corpus: &Corpus, path: &Path) -> Result<Vec<u8>, FormatErro
 
 /// Reads a corpus file of any readable version and checks its contents.
 pub fn load_corpus(path: &Path) -> Result<Corpus, FormatError> {
-    let bytes = format::read_bytes(path)?;
+    decode_corpus(format::read_bytes(path)?, path)
+}
+
+/// Decodes a corpus file image of any readable version and checks its
+/// contents (`path` names it in errors).
+fn decode_corpus(bytes: Vec<u8>, path: &Path) -> Result<Corpus, FormatError> {
     let shape = format::decode_versioned(FileKind::Corpus, &bytes, path, |version, payload| {
         if version == 1 {
             Ok(format::decode_payload::<CorpusV1>(payload, path)?.upgrade())
@@ -405,5 +410,35 @@ mod tests {
                 "{err} (expected `{expected}`)"
             );
         }
+    }
+
+    #[test]
+    fn every_single_byte_change_and_every_truncation_of_a_corpus_file_is_refused() {
+        // Source: as for model files (CRC-32 catches every changed byte of
+        // the payload; the header is checked; an older version's shape must
+        // not decode a newer payload into a corpus): every value of every
+        // byte is tried.
+        let path = Path::new("c.bin");
+        let bytes = encode_corpus(&corpus(), path).unwrap();
+        for position in 0..bytes.len() {
+            for value in 0..=255u8 {
+                if value == bytes[position] {
+                    continue;
+                }
+                let mut changed = bytes.clone();
+                changed[position] = value;
+                assert!(
+                    decode_corpus(changed, path).is_err(),
+                    "byte {position} set to {value} loaded"
+                );
+            }
+        }
+        for cut in 0..bytes.len() {
+            assert!(
+                decode_corpus(bytes[..cut].to_vec(), path).is_err(),
+                "cut at {cut} loaded"
+            );
+        }
+        assert_eq!(decode_corpus(bytes, path).unwrap(), corpus());
     }
 }

@@ -10,7 +10,7 @@
 //! ```text
 //! ROOT/
 //!   current            symlink to runs/<run> (the published run)
-//!   counters.json      next run number, next fresh topic id
+//!   counters           next run number, next fresh topic id (with a CRC)
 //!   names.toml         topic names by id, kept by editors
 //!   lock               held by the running process; names its holder
 //!   runs/<stamp>-<n>/  a published (or kept) run: model, summary, run.json, log

@@ -23,7 +23,7 @@ pub fn root_of_run_dir(dir: &Path) -> Option<RunRoot> {
     let resolved = fs::canonicalize(dir).ok()?;
     let runs = resolved.parent()?;
     let root = runs.parent()?;
-    (runs.file_name()? == "runs" && root.join("counters.json").is_file()).then(|| RunRoot {
+    (runs.file_name()? == "runs" && root.join("counters").is_file()).then(|| RunRoot {
         path: root.to_path_buf(),
     })
 }
@@ -79,7 +79,7 @@ impl RunRoot {
 
     /// The counter file.
     pub fn counters(&self) -> PathBuf {
-        self.path.join("counters.json")
+        self.path.join("counters")
     }
 
     /// The editors' names file.
@@ -323,5 +323,46 @@ mod tests {
         let late = RunRoot::run_name(UtcTime::from_unix(1_000_086_400), 8);
         assert_eq!(early, "20010909T014640Z-0007");
         assert!(early < late);
+    }
+
+    #[test]
+    fn every_single_byte_change_of_the_pointer_is_refused() {
+        // Source: common practice — a pointer must name a complete run
+        // folder of its root; with one run in the root, any other target
+        // names nothing usable. Every value of every byte of the link's
+        // target is tried (NUL cannot be in a link).
+        let folder = tempfile::tempdir().unwrap();
+        let root = RunRoot::open(folder.path()).unwrap();
+        fake_run(&root, "20261201T020000Z-0001");
+        let target = b"runs/20261201T020000Z-0001".to_vec();
+        for position in 0..target.len() {
+            for value in 1..=255u8 {
+                if value == target[position] {
+                    continue;
+                }
+                let mut changed = target.clone();
+                changed[position] = value;
+                let _ = fs::remove_file(root.pointer());
+                #[cfg(unix)]
+                {
+                    use std::os::unix::ffi::OsStrExt;
+                    std::os::unix::fs::symlink(std::ffi::OsStr::from_bytes(&changed), root.pointer())
+                        .unwrap();
+                }
+                #[cfg(not(unix))]
+                fs::write(root.pointer(), &changed).unwrap();
+                assert!(
+                    root.published().is_err(),
+                    "byte {position} set to {value} was accepted"
+                );
+            }
+        }
+        for cut in 0..target.len() {
+            let _ = fs::remove_file(root.pointer());
+            fs::write(root.pointer(), &target[..cut]).unwrap();
+            assert!(root.published().is_err(), "cut at {cut} was accepted");
+        }
+        root.point_to("20261201T020000Z-0001").unwrap();
+        assert!(root.published().is_ok());
     }
 }

@@ -166,9 +166,9 @@ fn two_nights_keep_ids_names_and_show_small_drift() {
             .unwrap()
             .starts_with(&edited)
     );
-    let counters = read_json(&scratch.path("root/counters.json"));
-    assert_eq!(counters["next_topic_id"], 8);
-    assert_eq!(counters["next_run"], 3);
+    let counters = themata::publish::counters::Counters::load(&scratch.path("root/counters")).unwrap();
+    assert_eq!(counters.next_topic_id, 8);
+    assert_eq!(counters.next_run, 3);
     // The published model loads through the pointer, with its ids.
     let model = themata::model::folder::load_model(&scratch.path("root/current")).unwrap();
     assert_eq!(model.topic_ids, (0..8).collect::<Vec<u32>>());
