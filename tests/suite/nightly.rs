@@ -377,14 +377,24 @@ fn runs_killed_at_random_moments_never_leave_a_broken_publication() {
     scratch.write("docs.jsonl", json_lines(&[&generate(200, 0, 5)]));
     config(&scratch, 150, "");
     let binary = assert_cmd::cargo::cargo_bin("themata");
-    let started = Instant::now();
-    themata(scratch.root())
-        .args(["run", "nightly.toml", "-q"])
-        .assert()
-        .success();
-    let whole = started.elapsed();
+    // A whole run's time, the shorter of two (the machine may be busy);
+    // shortened whenever a run finishes before its kill moment.
+    let mut whole = (0..2)
+        .map(|_| {
+            let started = Instant::now();
+            themata(scratch.root())
+                .args(["run", "nightly.toml", "-q"])
+                .assert()
+                .success();
+            started.elapsed()
+        })
+        .min()
+        .unwrap();
     let mut kills = 0;
-    for fraction in fractions(0x5EED, 24) {
+    for fraction in fractions(0x5EED, 80) {
+        if kills == 24 {
+            break;
+        }
         let spawned = Instant::now();
         let mut child = std::process::Command::new(&binary)
             .current_dir(scratch.root())
