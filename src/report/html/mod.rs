@@ -1,0 +1,3 @@
+//! The HTML report of a model.
+
+pub mod mds;
