@@ -241,25 +241,9 @@ pub fn write_file<T: Serialize>(kind: FileKind, value: &T, path: &Path) -> Resul
 /// complete new one: write a temporary file in the same folder, fsync it,
 /// rename it over the target, fsync the folder.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), FormatError> {
-    let folder = parent_of(path);
-    let name = path
-        .file_name()
-        .map(|name| name.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "output".into());
-    let temp = folder.join(format!(".{name}.tmp-{}", std::process::id()));
-    let result = (|| -> io::Result<()> {
-        let mut file = File::create(&temp)?;
-        file.write_all(bytes)?;
-        file.sync_all()?;
-        drop(file);
-        fs::rename(&temp, path)?;
-        sync_folder(&folder);
-        Ok(())
-    })();
-    if result.is_err() {
-        let _ = fs::remove_file(&temp);
-    }
-    result.map_err(|err| FormatError::io(path, err))
+    let mut file = AtomicFile::create(path)?;
+    file.write_all(bytes).map_err(|err| FormatError::io(path, err))?;
+    file.commit()
 }
 
 /// A file written as a stream and put in place only when complete: bytes go
@@ -290,7 +274,8 @@ impl AtomicFile {
         })
     }
 
-    /// Syncs the written bytes and renames the file into place.
+    /// Syncs the written bytes and renames the file into place (fsyncing
+    /// the folder); on failure the temporary file is removed.
     pub fn commit(mut self) -> Result<(), FormatError> {
         let Some(file) = self.file.take() else {
             return Ok(());
@@ -303,6 +288,9 @@ impl AtomicFile {
             sync_folder(&parent_of(&self.path));
             Ok(())
         })();
+        if result.is_err() {
+            let _ = fs::remove_file(&self.temp);
+        }
         result.map_err(|err| FormatError::io(&self.path, err))
     }
 }
@@ -325,7 +313,8 @@ impl Write for AtomicFile {
 
 impl Drop for AtomicFile {
     fn drop(&mut self) {
-        if self.file.take().is_some() || self.temp.exists() {
+        // Still holding the file: never committed, so the target stays as it was.
+        if self.file.take().is_some() {
             let _ = fs::remove_file(&self.temp);
         }
     }
