@@ -25,6 +25,8 @@ import re
 from pathlib import Path
 
 FIXED_SEED = 20240617
+# Issue 1 came out on the first of January of this year; one issue a month.
+FIRST_YEAR = 2016
 DOCUMENTS_PER_THEME = 50
 ITEMS_PER_ISSUE = 5
 OUTPUT_PATH = Path(__file__).resolve().parent / "bulletin.jsonl"
@@ -670,7 +672,7 @@ def check_banks():
 
 
 def generate():
-    """Return the full corpus as a list of {"id", "theme", "text"} records."""
+    """Return the full corpus as a list of {"id", "date", "theme", "text"} records."""
     check_banks()
     rng = random.Random(FIXED_SEED)
     labels = list(THEMES)
@@ -691,6 +693,9 @@ def generate():
         records.append(
             {
                 "id": f"issue-{issue_number:03d}/item-{item_number}",
+                # The issue's date (ISO 8601), derived from its number alone so
+                # that adding it drew nothing from the random stream.
+                "date": f"{FIRST_YEAR + (issue_number - 1) // 12}-{(issue_number - 1) % 12 + 1:02d}-01",
                 "theme": main_theme,
                 "text": build_document(main_theme, secondary_theme, issue_month, rng),
             }

@@ -6,8 +6,11 @@ mod bench;
 mod build;
 mod common;
 mod compare;
+mod context;
+mod export;
 mod fit;
 mod progress;
+mod report;
 mod run;
 mod run_root;
 mod score;
@@ -168,6 +171,10 @@ pub enum Command {
     Sweep(sweep::SweepArgs),
     /// Match the topics of two model folders and show how they drifted
     Compare(compare::CompareArgs),
+    /// Write a model's report: one HTML page that opens offline in any browser
+    Report(report::ReportArgs),
+    /// Write a model as a tidy table (CSV or JSON Lines) for data tools
+    Export(export::ExportArgs),
     /// Measure the fast samplers against the reference on synthetic corpora
     Bench(bench::BenchArgs),
 }
@@ -309,6 +316,8 @@ pub fn run(cli: Cli) -> Result<(), Failure> {
         Command::Score(args) => score::run(args),
         Command::Sweep(args) => sweep::run(args),
         Command::Compare(args) => compare::run(args),
+        Command::Report(args) => report::run(args),
+        Command::Export(args) => export::run(args),
         Command::Bench(args) => bench::run(args),
     }
 }

@@ -9,6 +9,7 @@ use themata::settings::{GateOptions, RunConfig};
 use super::common::{
     Fitted, build_corpus, fit_model, print_fit_line, print_run_report, stage_listings, warm_start_model,
 };
+use super::context::stage_report;
 use super::run_root::{self, RootRun};
 use super::{Failure, RunArgs};
 
@@ -80,6 +81,20 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         summary = summary.with_heldout(score);
     }
     let (topics, documents) = stage_listings(&staged, &model, top_words)?;
+    let report = themata::report::html::ReportContext {
+        title: out_dir.file_name().map_or_else(
+            || out_dir.display().to_string(),
+            |name| name.to_string_lossy().into_owned(),
+        ),
+        names: None,
+        record: None,
+        build: Some(&build_summary),
+        heldout_perplexity: summary.heldout_perplexity,
+        top_words,
+        level: themata::evaluate::uncertainty::DEFAULT_LEVEL,
+        warnings: Vec::new(),
+    };
+    stage_report(&staged, &model, &report)?;
     let build_json = serde_json::to_vec_pretty(&build_summary).map_err(Failure::system)?;
     staged.write("build.json", &build_json)?;
     stage_model(&staged, &model, &summary)?;

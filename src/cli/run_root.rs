@@ -30,6 +30,7 @@ use themata::settings::{
 
 use super::Failure;
 use super::common::{Fitted, build_corpus, fit_model, print_fit_line, print_run_report, stage_listings};
+use super::context::stage_report;
 
 /// The run log: one line per stage, on stderr (unless quiet) and in
 /// `log.txt` in the run folder.
@@ -395,6 +396,17 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         topics: topic_records,
         retired: identities.retired.clone(),
     };
+    let report = themata::report::html::ReportContext {
+        title: name.clone(),
+        names: names.as_ref(),
+        record: Some(&record),
+        build: Some(&build_summary),
+        heldout_perplexity: perplexity,
+        top_words: job.top_words,
+        level: themata::evaluate::uncertainty::DEFAULT_LEVEL,
+        warnings: Vec::new(),
+    };
+    stage_report(&staged, &model, &report)?;
     let mut record_json = serde_json::to_vec_pretty(&record).map_err(Failure::system)?;
     record_json.push(b'\n');
     staged.write("run.json", &record_json)?;

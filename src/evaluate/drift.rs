@@ -175,6 +175,118 @@ pub fn topic_distances(old: &Model, new: &Model) -> Vec<Vec<f64>> {
         .collect()
 }
 
+/// One topic of a model for distances within that model: the words any
+/// sample counted (increasing) with their probabilities, the floor every
+/// other word has, and `sum_w p_w ln p_w` over the whole vocabulary.
+struct SupportedTopic {
+    words: Vec<u32>,
+    values: Vec<f64>,
+    floor: f64,
+    negative_entropy: f64,
+}
+
+fn x_ln_x(x: f64) -> f64 {
+    if x > 0.0 { x * x.ln() } else { 0.0 }
+}
+
+fn supported_topic(model: &Model, topic: usize) -> SupportedTopic {
+    let row = model.topic_word_row(topic);
+    let n_words = row.len();
+    let words: Vec<u32> = if matches!(model.priors.beta, BetaPrior::Asymmetric(_)) {
+        (0..n_words as u32).collect()
+    } else {
+        let mut words: Vec<u32> = if model.samples.is_empty() {
+            (0..n_words as u32)
+                .filter(|&word| model.topic_has_word(topic, word as usize))
+                .collect()
+        } else {
+            model
+                .samples
+                .iter()
+                .flat_map(|sample| sample.topic_word[topic].iter().map(|&(word, _)| word))
+                .collect()
+        };
+        words.sort_unstable();
+        words.dedup();
+        words
+    };
+    let values: Vec<f64> = words.iter().map(|&word| row[word as usize]).collect();
+    // Every word outside the support has the same value; find one.
+    let mut floor = 0.0;
+    let mut next = 0usize;
+    for &word in &words {
+        if word as usize != next {
+            break;
+        }
+        next += 1;
+    }
+    if next < n_words {
+        floor = row[next];
+    }
+    let negative_entropy =
+        values.iter().map(|&p| x_ln_x(p)).sum::<f64>() + (n_words - words.len()) as f64 * x_ln_x(floor);
+    SupportedTopic {
+        words,
+        values,
+        floor,
+        negative_entropy,
+    }
+}
+
+/// The Jensen-Shannon distance between every two topics of one model
+/// (symmetric, zero diagonal), each pair once. As in [`topic_distances`],
+/// only the words either topic counted are visited; the divergence is taken
+/// as `H(M) - (H(P) + H(Q)) / 2` with the topics' entropies computed once,
+/// so a pair costs one logarithm per visited word (with K = 200 topics of a
+/// large corpus that is the difference between seconds and a fraction). The
+/// difference of entropies loses about 1e-15 of their size to rounding, a
+/// distance error below 1e-7.
+pub fn distances_within(model: &Model) -> Vec<Vec<f64>> {
+    let n_words = model.corpus.vocabulary.len();
+    let topics: Vec<SupportedTopic> = (0..model.n_topics())
+        .into_par_iter()
+        .map(|topic| supported_topic(model, topic))
+        .collect();
+    let n_topics = topics.len();
+    let pair = |a: &SupportedTopic, b: &SupportedTopic| -> f64 {
+        let mut mixed = 0.0;
+        let (mut i, mut j, mut visited) = (0, 0, 0usize);
+        while i < a.words.len() || j < b.words.len() {
+            let next_a = a.words.get(i).copied().unwrap_or(u32::MAX);
+            let next_b = b.words.get(j).copied().unwrap_or(u32::MAX);
+            let sum = if next_a == next_b {
+                i += 1;
+                j += 1;
+                a.values[i - 1] + b.values[j - 1]
+            } else if next_a < next_b {
+                i += 1;
+                a.values[i - 1] + b.floor
+            } else {
+                j += 1;
+                a.floor + b.values[j - 1]
+            };
+            mixed += x_ln_x(0.5 * sum);
+            visited += 1;
+        }
+        mixed += (n_words - visited) as f64 * x_ln_x(0.5 * (a.floor + b.floor));
+        (0.5 * (a.negative_entropy + b.negative_entropy) - mixed)
+            .max(0.0)
+            .sqrt()
+    };
+    let upper: Vec<Vec<f64>> = (0..n_topics)
+        .into_par_iter()
+        .map(|a| (a + 1..n_topics).map(|b| pair(&topics[a], &topics[b])).collect())
+        .collect();
+    let mut distances = vec![vec![0.0; n_topics]; n_topics];
+    for (a, row) in upper.iter().enumerate() {
+        for (offset, &distance) in row.iter().enumerate() {
+            distances[a][a + 1 + offset] = distance;
+            distances[a + 1 + offset][a] = distance;
+        }
+    }
+    distances
+}
+
 /// For each row of `costs`, the column it is matched to (each column at most
 /// once) by minimum total cost; rows left over when there are more rows
 /// than columns get `None`.
@@ -372,6 +484,26 @@ mod tests {
                 let expected = jensen_shannon_distance(p, q);
                 assert!((sparse[row][column] - expected).abs() < 1e-12, "{row},{column}");
             }
+        }
+    }
+
+    #[test]
+    fn distances_within_a_model_equal_the_dense_formula() {
+        // Source: METHODS.md section 5 (Jensen-Shannon distance, natural
+        // log), checked against the dense formula as above; a distance is
+        // symmetric and zero from a topic to itself (common practice).
+        let model = fitted(synthetic::two_topics(1).corpus, 5);
+        let rows = model.topic_word_matrix();
+        let within = distances_within(&model);
+        for (a, p) in rows.iter().enumerate() {
+            for (b, q) in rows.iter().enumerate() {
+                assert!(
+                    (within[a][b] - jensen_shannon_distance(p, q)).abs() < 1e-7,
+                    "{a},{b}"
+                );
+                assert_eq!(within[a][b], within[b][a]);
+            }
+            assert_eq!(within[a][a], 0.0);
         }
     }
 

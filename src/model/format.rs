@@ -241,25 +241,83 @@ pub fn write_file<T: Serialize>(kind: FileKind, value: &T, path: &Path) -> Resul
 /// complete new one: write a temporary file in the same folder, fsync it,
 /// rename it over the target, fsync the folder.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<(), FormatError> {
-    let folder = parent_of(path);
-    let name = path
-        .file_name()
-        .map(|name| name.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "output".into());
-    let temp = folder.join(format!(".{name}.tmp-{}", std::process::id()));
-    let result = (|| -> io::Result<()> {
-        let mut file = File::create(&temp)?;
-        file.write_all(bytes)?;
-        file.sync_all()?;
-        drop(file);
-        fs::rename(&temp, path)?;
-        sync_folder(&folder);
-        Ok(())
-    })();
-    if result.is_err() {
-        let _ = fs::remove_file(&temp);
+    let mut file = AtomicFile::create(path)?;
+    file.write_all(bytes).map_err(|err| FormatError::io(path, err))?;
+    file.commit()
+}
+
+/// A file written as a stream and put in place only when complete: bytes go
+/// to a temporary file beside the target; [`AtomicFile::commit`] syncs it and
+/// renames it over the target (as [`write_atomic`] does for bytes in
+/// memory). Dropped without a commit, it removes the temporary file and
+/// leaves the target as it was.
+pub struct AtomicFile {
+    path: PathBuf,
+    temp: PathBuf,
+    file: Option<io::BufWriter<File>>,
+}
+
+impl AtomicFile {
+    /// Starts writing `path`.
+    pub fn create(path: &Path) -> Result<AtomicFile, FormatError> {
+        let folder = parent_of(path);
+        let name = path
+            .file_name()
+            .map(|name| name.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "output".into());
+        let temp = folder.join(format!(".{name}.tmp-{}", std::process::id()));
+        let file = File::create(&temp).map_err(|err| FormatError::io(path, err))?;
+        Ok(AtomicFile {
+            path: path.to_path_buf(),
+            temp,
+            file: Some(io::BufWriter::new(file)),
+        })
     }
-    result.map_err(|err| FormatError::io(path, err))
+
+    /// Syncs the written bytes and renames the file into place (fsyncing
+    /// the folder); on failure the temporary file is removed.
+    pub fn commit(mut self) -> Result<(), FormatError> {
+        let Some(file) = self.file.take() else {
+            return Ok(());
+        };
+        let result = (|| -> io::Result<()> {
+            let file = file.into_inner().map_err(io::IntoInnerError::into_error)?;
+            file.sync_all()?;
+            drop(file);
+            fs::rename(&self.temp, &self.path)?;
+            sync_folder(&parent_of(&self.path));
+            Ok(())
+        })();
+        if result.is_err() {
+            let _ = fs::remove_file(&self.temp);
+        }
+        result.map_err(|err| FormatError::io(&self.path, err))
+    }
+}
+
+impl Write for AtomicFile {
+    fn write(&mut self, bytes: &[u8]) -> io::Result<usize> {
+        match &mut self.file {
+            Some(file) => file.write(bytes),
+            None => Err(io::Error::other("the file was already committed")),
+        }
+    }
+
+    fn flush(&mut self) -> io::Result<()> {
+        match &mut self.file {
+            Some(file) => file.flush(),
+            None => Ok(()),
+        }
+    }
+}
+
+impl Drop for AtomicFile {
+    fn drop(&mut self) {
+        // Still holding the file: never committed, so the target stays as it was.
+        if self.file.take().is_some() {
+            let _ = fs::remove_file(&self.temp);
+        }
+    }
 }
 
 fn parent_of(path: &Path) -> PathBuf {
@@ -421,6 +479,25 @@ fn swap_folders(a: &Path, b: &Path) -> io::Result<()> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_streamed_file_appears_only_when_committed() {
+        // Source: common practice (POSIX rename(2) replaces the target in one
+        // step): an abandoned write leaves the old file and no temporary file.
+        let folder = tempfile::tempdir().unwrap();
+        let path = folder.path().join("table.csv");
+        std::fs::write(&path, b"old").unwrap();
+        let mut abandoned = AtomicFile::create(&path).unwrap();
+        abandoned.write_all(b"half").unwrap();
+        drop(abandoned);
+        assert_eq!(std::fs::read(&path).unwrap(), b"old");
+        assert_eq!(std::fs::read_dir(folder.path()).unwrap().count(), 1);
+        let mut file = AtomicFile::create(&path).unwrap();
+        file.write_all(b"new, whole").unwrap();
+        file.commit().unwrap();
+        assert_eq!(std::fs::read(&path).unwrap(), b"new, whole");
+        assert_eq!(std::fs::read_dir(folder.path()).unwrap().count(), 1);
+    }
 
     /// Decodes a test payload, whatever the version in the header.
     fn decode<T: DeserializeOwned>(kind: FileKind, bytes: &[u8], path: &Path) -> Result<T, FormatError> {

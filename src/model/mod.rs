@@ -112,6 +112,21 @@ pub(crate) fn sparse_counts(state: &CountState, corpus: &Corpus) -> (SparseRows,
     (topic_word, doc_topic)
 }
 
+/// The `(a_k, A)` pair of one document's topic share in each sample: the
+/// Beta marginal of its Dirichlet(alpha + n_d) posterior.
+fn share_components(samples: &[Sample], doc_idx: usize, topic_idx: usize, doc_len: f64) -> Vec<(f64, f64)> {
+    samples
+        .iter()
+        .map(|sample| {
+            let count = Sample::count(&sample.doc_topic[doc_idx], topic_idx);
+            (
+                f64::from(count) + sample.priors.alpha[topic_idx],
+                doc_len + sample.priors.alpha_sum(),
+            )
+        })
+        .collect()
+}
+
 /// Columns of the topic-word matrix: `phi_kw` for every topic k of one word
 /// w, averaged over the samples, computed from the sparse counts on demand.
 /// Each value is the same, bit for bit, as in [`Model::topic_word_row`]: the
@@ -333,19 +348,26 @@ impl Model {
         self.with_samples(|samples| {
             (0..self.n_topics())
                 .map(|topic_idx| {
-                    let components: Vec<(f64, f64)> = samples
-                        .iter()
-                        .map(|sample| {
-                            let count = Sample::count(&sample.doc_topic[doc_idx], topic_idx);
-                            (
-                                f64::from(count) + sample.priors.alpha[topic_idx],
-                                doc_len + sample.priors.alpha_sum(),
-                            )
-                        })
-                        .collect();
+                    let components = share_components(samples, doc_idx, topic_idx, doc_len);
                     uncertainty::mixture_share_interval(&components, level)
                 })
                 .collect()
+        })
+    }
+
+    /// Credible interval at `level` of one topic share of one document (the
+    /// same value as that topic's entry of [`Model::doc_topic_intervals`],
+    /// without computing the others).
+    pub fn doc_topic_interval(
+        &self,
+        doc_idx: usize,
+        topic_idx: usize,
+        level: f64,
+    ) -> Result<Interval, UncertaintyError> {
+        let doc_len = self.doc_len(doc_idx) as f64;
+        self.with_samples(|samples| {
+            let components = share_components(samples, doc_idx, topic_idx, doc_len);
+            uncertainty::mixture_share_interval(&components, level)
         })
     }
 

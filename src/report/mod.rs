@@ -1,6 +1,12 @@
 //! What people and tools read: topics with their top words, document
 //! mixtures, and the fit summary. Each output shape is its own type; the
-//! writers render them as an aligned table, TSV or JSON.
+//! writers render them as an aligned table, TSV or JSON. The HTML report
+//! is in [`html`], the tidy export tables in [`export`], the reading of
+//! document dates in [`dates`].
+
+pub mod dates;
+pub mod export;
+pub mod html;
 
 use std::io::{self, Write};
 

@@ -2,6 +2,7 @@
 
 mod util;
 
+mod browser;
 mod cli;
 mod determinism;
 mod formats;
@@ -9,6 +10,7 @@ mod geweke;
 mod golden;
 mod learning;
 mod nightly;
+mod report;
 mod samplers;
 mod scoring;
 mod worked_examples;

@@ -179,6 +179,16 @@ fn two_nights_keep_ids_names_and_show_small_drift() {
     assert_eq!(record.topics.len(), 8);
     let names = themata::publish::names::names_for_model_dir(&scratch.path("root/current")).unwrap();
     assert_eq!(names.get(6), Some("school news"));
+    // The run's report shows the editors' names and the drift, and the
+    // report command on the pointer writes the same page.
+    let page = std::fs::read_to_string(night_two.join("report.html")).unwrap();
+    assert!(page.contains("harbour works") && page.contains("name given by the editors"));
+    assert_eq!(page.matches("Since the previous run").count(), 8);
+    themata(scratch.root())
+        .args(["report", "root/current", "--out", "again.html"])
+        .assert()
+        .success();
+    assert_eq!(std::fs::read_to_string(scratch.path("again.html")).unwrap(), page);
 }
 
 /// Sweeps until the log-likelihood trace (one point per sweep) first
