@@ -26,6 +26,8 @@ use crate::ingest::tokenize::{
     self, DEFAULT_MAX_LENGTH, DEFAULT_MIN_LENGTH, DEFAULT_STOPWORDS, TokenizerSettings,
 };
 use crate::ingest::vocab::{DEFAULT_MAX_DOC_SHARE, DEFAULT_MIN_DOCS, PruneRules};
+use crate::report::numbers::{DEFAULT_PRECISION, MAX_PRECISION, Numbers};
+use crate::report::{DEFAULT_MIN_SHARE, DEFAULT_WIDE_SLOTS, DocumentLayout, ListingPlan, TopicSelection};
 
 /// A value the user gave that cannot be used.
 #[derive(Debug, thiserror::Error)]
@@ -684,6 +686,124 @@ pub struct OutputOptions {
 }
 overlay!(OutputOptions { dir, top_words });
 
+/// Significant digits of printed numbers.
+pub const PRECISION: WholeRange = WholeRange::between(1, MAX_PRECISION as u64);
+/// The help text of `--precision`, shared by every command that prints numbers.
+pub const PRECISION_HELP: &str = "Significant digits of the numbers in TSV and JSON output (tables round for reading); 17 reads back to the exact value";
+
+/// How document listings are cut down and printed (`show --documents`,
+/// `assign`, and the files `run` writes).
+#[derive(Args, Deserialize, Clone, Debug, Default, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ListingOptions {
+    #[arg(long, value_name = "DIGITS", value_parser = PRECISION.parser::<usize>(), help = help(PRECISION_HELP, DEFAULT_PRECISION))]
+    pub precision: Option<usize>,
+    #[arg(
+        long,
+        value_name = "F",
+        value_parser = ShareRange::BELOW_ONE.parser(),
+        conflicts_with = "all_topics",
+        help = help("List a document's topics whose share is at least F (its largest topic always); with --top and no --min-share, the N largest whatever their share", DEFAULT_MIN_SHARE)
+    )]
+    pub min_share: Option<f64>,
+    #[arg(
+        long,
+        value_name = "N",
+        value_parser = AT_LEAST_ONE.parser::<usize>(),
+        conflicts_with = "all_topics",
+        help = help("List at most a document's N largest topics; in the wide layout, the number of topic columns", format!("no limit in the long layout, {DEFAULT_WIDE_SLOTS} in the wide one"))
+    )]
+    pub top: Option<usize>,
+    #[arg(
+        long,
+        num_args = 0..=1,
+        default_missing_value = "true",
+        value_name = "BOOL",
+        help = help("List every topic of every document, in topic order", false)
+    )]
+    pub all_topics: Option<bool>,
+    #[arg(
+        long,
+        value_enum,
+        value_name = "LAYOUT",
+        help = help("Document rows: `long` (one row per document and topic) or `wide` (one row per document: its largest topics side by side); `run` writes both files", "long")
+    )]
+    pub layout: Option<DocumentLayout>,
+}
+impl ListingOptions {
+    /// Returns these settings with every value set in `over` replacing
+    /// ours; a topic selection in `over` (`all_topics`, or `min_share` and
+    /// `top`) replaces ours whole, so the command line can switch between
+    /// them.
+    pub fn overlay(self, over: ListingOptions) -> ListingOptions {
+        let selects = over.all_topics.is_some() || over.min_share.is_some() || over.top.is_some();
+        let (min_share, top, all_topics) = if selects {
+            (over.min_share, over.top, over.all_topics)
+        } else {
+            (self.min_share, self.top, self.all_topics)
+        };
+        ListingOptions {
+            precision: over.precision.or(self.precision),
+            min_share,
+            top,
+            all_topics,
+            layout: over.layout.or(self.layout),
+        }
+    }
+
+    /// The listing plan with defaults applied; checks values from config files.
+    pub fn resolve(&self) -> Result<ListingPlan, SettingsError> {
+        let precision = self.precision.unwrap_or(DEFAULT_PRECISION);
+        PRECISION.check("precision", precision as u64)?;
+        if let Some(min_share) = self.min_share {
+            ShareRange::BELOW_ONE.check("min_share", min_share)?;
+        }
+        if let Some(top) = self.top {
+            AT_LEAST_ONE.check("top", top as u64)?;
+        }
+        let all_topics = self.all_topics.unwrap_or(false);
+        if all_topics && (self.min_share.is_some() || self.top.is_some()) {
+            return Err(invalid(
+                "all_topics",
+                "lists every topic; it cannot be combined with min_share or top",
+            ));
+        }
+        let selection = if all_topics {
+            TopicSelection::All
+        } else {
+            TopicSelection::Largest {
+                min_share: self.min_share.unwrap_or(if self.top.is_some() {
+                    0.0
+                } else {
+                    DEFAULT_MIN_SHARE
+                }),
+                top: self.top,
+            }
+        };
+        Ok(ListingPlan {
+            numbers: Numbers::with_precision(precision),
+            selection,
+            layout: self.layout.unwrap_or_default(),
+        })
+    }
+}
+
+/// `--precision` alone, for the commands that print numbers but no
+/// document listing (`score`, `sweep`); the same range, help and default as
+/// [`ListingOptions::precision`].
+#[derive(Args, Clone, Debug, Default, PartialEq)]
+pub struct PrecisionOptions {
+    #[arg(long, value_name = "DIGITS", value_parser = PRECISION.parser::<usize>(), help = help(PRECISION_HELP, DEFAULT_PRECISION))]
+    pub precision: Option<usize>,
+}
+
+impl PrecisionOptions {
+    /// How numbers are printed.
+    pub fn resolve(&self) -> Numbers {
+        Numbers::with_precision(self.precision.unwrap_or(DEFAULT_PRECISION))
+    }
+}
+
 /// A whole run as a config file describes it.
 #[derive(Deserialize, Clone, Debug, Default, PartialEq)]
 #[serde(deny_unknown_fields)]
@@ -698,6 +818,8 @@ pub struct RunConfig {
     pub fit: FitOptions,
     #[serde(default)]
     pub output: OutputOptions,
+    #[serde(default)]
+    pub listing: ListingOptions,
 }
 
 /// 1-based line of a byte offset in `text`.
@@ -825,6 +947,7 @@ impl RunConfig {
                 .check("top_words", top_words as u64)
                 .map_err(|err| at("output", err))?;
         }
+        self.listing.resolve().map_err(|err| at("listing", err))?;
         Ok(())
     }
 }
@@ -833,7 +956,7 @@ impl RunConfig {
 /// `docs/config.md` is this text; a test fails when it is stale.
 pub fn config_reference() -> String {
     use clap::{Args as _, Command};
-    let sections: [(&str, Command); 5] = [
+    let sections: [(&str, Command); 6] = [
         ("input", InputOptions::augment_args(Command::new("input"))),
         (
             "tokenizer",
@@ -845,6 +968,7 @@ pub fn config_reference() -> String {
         ),
         ("fit", FitOptions::augment_args(Command::new("fit"))),
         ("output", OutputOptions::augment_args(Command::new("output"))),
+        ("listing", ListingOptions::augment_args(Command::new("listing"))),
     ];
     let mut out = String::from(
         "# Config file keys\n\nGenerated from the option definitions in `src/settings.rs`; \

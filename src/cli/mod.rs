@@ -19,7 +19,8 @@ use themata::fitting::fit::FitError;
 use themata::ingest::corpus::CorpusError;
 use themata::model::format::FormatError;
 use themata::settings::{
-    FitOptions, InputOptions, OutputOptions, SettingsError, TokenizerOptions, VocabularyOptions,
+    FitOptions, InputOptions, ListingOptions, OutputOptions, SettingsError, TokenizerOptions,
+    VocabularyOptions,
 };
 
 /// Exit code for bad input or usage.
@@ -233,6 +234,8 @@ pub struct RunArgs {
     pub fit: FitOptions,
     #[command(flatten, next_help_heading = "Output (overrides the config file)")]
     pub output: OutputOptions,
+    #[command(flatten, next_help_heading = "Listing (overrides the config file)")]
+    pub listing: ListingOptions,
     /// No progress bar; print only the report
     #[arg(long, short)]
     pub quiet: bool,

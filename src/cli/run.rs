@@ -1,15 +1,21 @@
 //! `themata run`: build, fit and report as a config file describes, into one
 //! output folder that is replaced whole only when everything succeeded.
 
+use themata::evaluate::compare::label_agreement;
 use themata::evaluate::uncertainty::DEFAULT_LEVEL;
 use themata::model::folder::stage_model;
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
-use themata::report::{self, ListingFormat, WordLimit};
+use themata::report::{self, DocumentLayout, DocumentView, ListingFormat, WordLimit};
 use themata::settings::RunConfig;
 
 use super::common::{build_corpus, fit_model, print_fit_line};
 use super::{Failure, RunArgs};
+
+/// The long document listing a run writes.
+const DOCUMENTS_FILE: &str = "documents.tsv";
+/// The wide document listing a run writes (one row per document).
+const WIDE_DOCUMENTS_FILE: &str = "documents-wide.tsv";
 
 /// Runs `themata run`.
 pub fn run(args: RunArgs) -> Result<(), Failure> {
@@ -19,6 +25,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     let vocabulary = config.vocabulary.overlay(args.vocabulary);
     let fit = config.fit.overlay(args.fit);
     let output = config.output.overlay(args.output);
+    let listing = config.listing.overlay(args.listing).resolve()?;
     let plan = fit.resolve()?;
     let inputs = input.paths.clone().unwrap_or_default();
     if inputs.is_empty() {
@@ -53,22 +60,31 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
 
     let topics =
         report::topic_listings(&model, WordLimit::Top(top_words), DEFAULT_LEVEL).map_err(Failure::system)?;
-    let documents = report::document_listings(&model, DEFAULT_LEVEL).map_err(Failure::system)?;
     let mut topics_tsv = Vec::new();
-    report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv).map_err(Failure::system)?;
+    report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv, listing.numbers)
+        .map_err(Failure::system)?;
     staged.write("topics.tsv", &topics_tsv)?;
-    let mut documents_tsv = Vec::new();
-    report::write_documents(&mut documents_tsv, &documents, ListingFormat::Tsv).map_err(Failure::system)?;
-    staged.write("documents.tsv", &documents_tsv)?;
+    let rows = report::document_rows(&model, listing.selection, DEFAULT_LEVEL).map_err(Failure::system)?;
+    let view = DocumentView::of(&listing, model.n_topics());
+    for (name, layout) in [
+        (DOCUMENTS_FILE, DocumentLayout::Long),
+        (WIDE_DOCUMENTS_FILE, DocumentLayout::Wide),
+    ] {
+        let mut tsv = Vec::new();
+        report::write_documents(&mut tsv, &rows, ListingFormat::Tsv, &view.with_layout(layout))
+            .map_err(Failure::system)?;
+        staged.write(name, &tsv)?;
+    }
     let build_json = serde_json::to_vec_pretty(&build_summary).map_err(Failure::system)?;
     staged.write("build.json", &build_json)?;
     stage_model(&staged, &model, &summary)?;
     staged.commit()?;
 
     let mut table = Vec::new();
-    report::write_topics(&mut table, &topics, ListingFormat::Table).map_err(Failure::system)?;
+    report::write_topics(&mut table, &topics, ListingFormat::Table, listing.numbers)
+        .map_err(Failure::system)?;
     print!("{}", String::from_utf8_lossy(&table));
-    if let Some(agreement) = report::label_agreement(&documents) {
+    if let Some(agreement) = label_agreement(&model) {
         println!(
             "label agreement: normalised mutual information {:.3} between each document's top topic and its label ({} labelled documents, {} labels)",
             agreement.nmi, agreement.documents, agreement.labels

@@ -15,6 +15,7 @@ use themata::ingest::tokenize::Tokenizer;
 use themata::model::Model;
 use themata::model::format::FileKind;
 use themata::report::ListingFormat;
+use themata::settings::PrecisionOptions;
 
 use super::{Failure, RecordOptions};
 use themata::model::folder::load_model;
@@ -54,6 +55,8 @@ pub struct ScoreArgs {
     /// Seed of the scoring random streams
     #[arg(long, value_name = "S", default_value_t = 1)]
     pub seed: u64,
+    #[command(flatten)]
+    pub precision: PrecisionOptions,
 }
 
 /// The JSON object `score --format json` prints.
@@ -111,7 +114,9 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
     };
     match args.format {
         ListingFormat::Json => {
-            let text = serde_json::to_string_pretty(&output).map_err(Failure::system)?;
+            let mut value = serde_json::to_value(&output).map_err(Failure::system)?;
+            args.precision.resolve().round_json(&mut value);
+            let text = serde_json::to_string_pretty(&value).map_err(Failure::system)?;
             println!("{text}");
         }
         _ => print_table(&output),

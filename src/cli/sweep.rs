@@ -7,7 +7,7 @@ use themata::evaluate::k_search::{self, KSearchSettings};
 use themata::fitting::fit::PriorSpec;
 use themata::model::folder::SUMMARY_FILE;
 use themata::model::format::StagedFolder;
-use themata::settings::FitOptions;
+use themata::settings::{FitOptions, PrecisionOptions};
 
 use super::Failure;
 
@@ -44,6 +44,8 @@ pub struct SweepArgs {
     /// Folder for sweep.tsv and summary.json (the table as JSON)
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
+    #[command(flatten)]
+    pub precision: PrecisionOptions,
 }
 
 /// Runs `themata sweep`.
@@ -90,9 +92,12 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
             k_search::KSearchError::Scoring { .. } => Failure::system(err),
             _ => Failure::bad_input(err),
         })?;
-    let tsv = k_search::to_tsv(&report);
+    let numbers = args.precision.resolve();
+    let tsv = k_search::to_tsv(&report, &|value| numbers.text(value));
     staged.write("sweep.tsv", tsv.as_bytes())?;
-    let json = serde_json::to_vec_pretty(&report).map_err(Failure::system)?;
+    let mut json = serde_json::to_value(&report).map_err(Failure::system)?;
+    numbers.round_json(&mut json);
+    let json = serde_json::to_vec_pretty(&json).map_err(Failure::system)?;
     staged.write(SUMMARY_FILE, &json)?;
     staged.commit()?;
     println!(

@@ -195,8 +195,8 @@ fn summarise(topics: usize, runs: Vec<&RunResult>) -> KSearchRow {
     }
 }
 
-/// The report as TSV: one line per K.
-pub fn to_tsv(report: &KSearchReport) -> String {
+/// The report as TSV: one line per K, real numbers written by `number`.
+pub fn to_tsv(report: &KSearchReport, number: &dyn Fn(f64) -> String) -> String {
     let mut out = String::from(
         "topics\tseeds\theldout_perplexity\tperplexity_sd\tnpmi\tumass\tstability\trecommended\n",
     );
@@ -205,11 +205,11 @@ pub fn to_tsv(report: &KSearchReport) -> String {
             "{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\n",
             row.topics,
             row.seeds,
-            row.heldout_perplexity,
-            row.perplexity_sd,
-            row.npmi,
-            row.umass,
-            row.stability.map_or(String::new(), |s| s.to_string()),
+            number(row.heldout_perplexity),
+            number(row.perplexity_sd),
+            number(row.npmi),
+            number(row.umass),
+            row.stability.map_or(String::new(), number),
             row.topics == report.recommended_topics
         ));
     }

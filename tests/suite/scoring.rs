@@ -56,7 +56,7 @@ fn fold_in_of_a_training_document_recovers_its_shares() {
             unknown_tokens: 0,
         };
         let mut rng = score::document_rng(9, doc_idx);
-        let placed = score::place(&model, &weights, &doc, &fold, 0.9, &mut rng).unwrap();
+        let placed = score::place(&model, &weights, &doc, &fold, &mut rng).unwrap();
         let trained = model.doc_topic_shares(doc_idx);
         worst = worst.max(jensen_shannon_distance(&placed.shares, &trained));
     }
