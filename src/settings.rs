@@ -285,6 +285,7 @@ impl InputOptions {
             id_field: field("id_field", &self.id_field, DEFAULT_ID_FIELD)?,
             label_field: field("label_field", &self.label_field, DEFAULT_LABEL_FIELD)?,
             date_field: field("date_field", &self.date_field, DEFAULT_DATE_FIELD)?,
+            unique_ids: true,
         })
     }
 

@@ -4,8 +4,8 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use themata::evaluate::heldout::FoldInSettings;
-use themata::evaluate::score::{self, EncodedDocument};
-use themata::ingest::read::{self, Diagnostic};
+use themata::evaluate::score;
+use themata::ingest::read::{self, Diagnostic, RawDocument};
 use themata::ingest::tokenize::Tokenizer;
 use themata::report::{self, DocumentRow, DocumentView, ListingPlan};
 use themata::settings::{AT_LEAST_ONE, ListingOptions, resolve_threads};
@@ -71,7 +71,10 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
         samples: args.samples,
         ..FoldInSettings::default()
     };
-    let options = args.records.resolve()?;
+    let options = read::ReadOptions {
+        unique_ids: false,
+        ..args.records.resolve()?
+    };
     let pool = themata::thread_pool(threads).map_err(Failure::system)?;
     let view = DocumentView::of(&plan, model.n_topics());
     let stdout = std::io::stdout();
@@ -79,32 +82,43 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     if args.format == AssignFormat::Tsv {
         view.write_tsv_header(&mut out).map_err(Failure::output)?;
     }
-    let mut batch: Vec<EncodedDocument> = Vec::with_capacity(BATCH);
+    let mut batch: Vec<RawDocument> = Vec::with_capacity(BATCH);
     let mut totals = Totals::default();
     let mut failure: Option<Failure> = None;
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
-    let mut flush = |batch: &mut Vec<EncodedDocument>, totals: &mut Totals| -> Result<(), Failure> {
+    // Each document is encoded, placed and printed into its own buffer in
+    // parallel; the buffers are written in input order.
+    let mut flush = |batch: &mut Vec<RawDocument>, totals: &mut Totals| -> Result<(), Failure> {
         let first = totals.documents;
-        let rows: Vec<Result<DocumentRow, score::ScoreError>> = pool.install(|| {
+        let placed: Vec<Result<(DocumentRow, Vec<u8>), score::ScoreError>> = pool.install(|| {
             use rayon::prelude::*;
             batch
                 .par_iter()
                 .enumerate()
-                .map(|(offset, doc)| {
+                .map(|(offset, raw)| {
+                    let doc = score::encode_text(&tokenizer, &model.corpus.vocabulary, &raw.id, &raw.text);
                     let mut rng = score::document_rng(args.seed, first + offset);
-                    let placement = score::place(&model, &weights, doc, &fold_in, &mut rng)?;
-                    report::placement_row(&placement, &model.priors.alpha, plan.selection, args.interval)
+                    let placement = score::place(&model, &weights, &doc, &fold_in, &mut rng)?;
+                    let row = report::placement_row(
+                        &placement,
+                        &model.priors.alpha,
+                        plan.selection,
+                        args.interval,
+                    )?;
+                    let mut text = Vec::with_capacity(256);
+                    match args.format {
+                        AssignFormat::Tsv => view.write_tsv_row(&mut text, &row),
+                        AssignFormat::Jsonl => view.write_json_line(&mut text, &row),
+                    }
+                    .expect("writing to memory cannot fail");
+                    Ok((row, text))
                 })
                 .collect()
         });
-        for row in rows {
-            let row = row.map_err(Failure::system)?;
+        for result in placed {
+            let (row, text) = result.map_err(Failure::system)?;
             totals.add(&row);
-            match args.format {
-                AssignFormat::Tsv => view.write_tsv_row(&mut out, &row),
-                AssignFormat::Jsonl => view.write_json_line(&mut out, &row),
-            }
-            .map_err(Failure::output)?;
+            out.write_all(&text).map_err(Failure::output)?;
             if !row.placed {
                 eprintln!(
                     "themata: flagged: document `{}` has no word the model knows ({} tokens, all unknown); it was not placed",
@@ -120,12 +134,7 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
         if failure.is_some() {
             return;
         }
-        batch.push(score::encode_text(
-            &tokenizer,
-            &model.corpus.vocabulary,
-            &raw.id,
-            &raw.text,
-        ));
+        batch.push(raw);
         if batch.len() == BATCH
             && let Err(err) = flush(&mut batch, &mut totals)
         {

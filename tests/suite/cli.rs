@@ -1202,3 +1202,42 @@ fn document_listings_have_a_wide_view_and_a_threshold() {
             .all(|l| l.split('\t').skip(2).all(|f| significant_digits(f) <= 3))
     );
 }
+
+#[test]
+fn assign_lists_main_topics_by_default_and_keeps_every_document() {
+    // Source: issue 15, item 4 — by default, each document's topics with a
+    // share of at least 0.01, with intervals; memory must not grow with the
+    // number of documents, so assign keeps no table of ids and places a
+    // document whose id repeats (issue 11, item 9: no document goes missing).
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    scratch.write(
+        "new.jsonl",
+        "{\"id\":\"n1\",\"text\":\"harbour tide quay boat nets\"}\n{\"id\":\"n1\",\"text\":\"seed soil plot beans\"}\n",
+    );
+    let output = themata(scratch.root())
+        .args(["assign", "model", "new.jsonl", "--quiet"])
+        .output()
+        .unwrap();
+    assert!(output.status.success());
+    let text = String::from_utf8(output.stdout).unwrap();
+    let rows: Vec<Vec<&str>> = text.lines().skip(1).map(|l| l.split('\t').collect()).collect();
+    assert!(
+        rows.iter().all(|r| r[2].parse::<f64>().unwrap() >= 0.01),
+        "{text}"
+    );
+    assert!(rows.len() < 2 * 3, "not every topic of both documents: {text}");
+    assert!(rows.len() >= 2, "a row for each document: {text}");
+    // Each listed topic's interval is the one --all-topics gives for it.
+    let all = themata(scratch.root())
+        .args(["assign", "model", "new.jsonl", "--quiet", "--all-topics"])
+        .output()
+        .unwrap();
+    let all = String::from_utf8(all.stdout).unwrap();
+    let all_rows: Vec<&str> = all.lines().skip(1).collect();
+    assert_eq!(all_rows.len(), 2 * 3, "both documents placed: {all}");
+    let listed: Vec<&str> = text.lines().skip(1).collect();
+    for row in &listed {
+        assert!(all_rows.contains(row), "{row} not in {all}");
+    }
+}

@@ -237,6 +237,7 @@ mod tests {
             text_field: "body".into(),
             id_field: "key".into(),
             label_field: "topic".into(),
+            unique_ids: true,
         };
         let bytes = b"{\"key\": \"k1\", \"body\": \"the body\", \"topic\": \"t\", \"when\": \" 2024-03-01 \", \"text\": \"ignored\"}\n{\"text\": \"only text\"}\n";
         let outcome = run_json_lines(bytes, &options);
@@ -480,6 +481,7 @@ mod tests {
             diagnostics: &mut diagnostics,
             sink: &mut sink,
             seen_ids: HashSet::new(),
+            unique_ids: true,
             counts: ReadCounts::default(),
         };
         let result = read_json_lines(reader, STDIN_ORIGIN, &ReadOptions::default(), &mut collector);

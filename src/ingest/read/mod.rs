@@ -15,7 +15,8 @@
 //!   `/` separators; a text file given directly by the path as given; a record
 //!   by its id field or column, or `file:line` when that is missing or empty.
 //! - A document whose text is empty or only whitespace is skipped, and so is
-//!   a document whose id was already handed out earlier in the same call.
+//!   a document whose id was already handed out earlier in the same call
+//!   (unless `unique_ids` is off, as for `assign`).
 //! - The input `-` is standard input, read as JSON Lines (as CSV with the CSV
 //!   format, as one text document with the text format).
 
@@ -86,6 +87,10 @@ pub struct ReadOptions {
     pub label_field: String,
     /// The JSON field or CSV column holding the document date (optional).
     pub date_field: String,
+    /// Skip a document whose id an earlier one had (true for building a
+    /// corpus, where ids name documents; `assign` streams and keeps nothing
+    /// per document, so it places every document whatever its id).
+    pub unique_ids: bool,
 }
 
 impl Default for ReadOptions {
@@ -96,6 +101,7 @@ impl Default for ReadOptions {
             id_field: DEFAULT_ID_FIELD.into(),
             label_field: DEFAULT_LABEL_FIELD.into(),
             date_field: DEFAULT_DATE_FIELD.into(),
+            unique_ids: true,
         }
     }
 }
@@ -220,6 +226,7 @@ fn read_documents_from(
         diagnostics,
         sink,
         seen_ids: HashSet::new(),
+        unique_ids: options.unique_ids,
         counts: ReadCounts::default(),
     };
     for plan in plans {
@@ -324,6 +331,7 @@ struct Collector<'a> {
     diagnostics: &'a mut Vec<Diagnostic>,
     sink: &'a mut dyn FnMut(RawDocument),
     seen_ids: HashSet<String>,
+    unique_ids: bool,
     counts: ReadCounts,
 }
 
@@ -348,7 +356,7 @@ impl Collector<'_> {
             self.skip(DiagnosticKind::Empty, document.origin, Some(document.id), message);
             return;
         }
-        if self.seen_ids.contains(&document.id) {
+        if self.unique_ids && self.seen_ids.contains(&document.id) {
             let message = format!(
                 "document id `{}` was already used by an earlier document; this one is skipped",
                 document.id
@@ -361,7 +369,9 @@ impl Collector<'_> {
             );
             return;
         }
-        self.seen_ids.insert(document.id.clone());
+        if self.unique_ids {
+            self.seen_ids.insert(document.id.clone());
+        }
         self.counts.documents_emitted += 1;
         (self.sink)(document);
     }
@@ -517,6 +527,7 @@ mod test_support {
             diagnostics: &mut diagnostics,
             sink: &mut sink,
             seen_ids: HashSet::new(),
+            unique_ids: options.unique_ids,
             counts: ReadCounts::default(),
         };
         let result = read_json_lines(Cursor::new(bytes), "mem.jsonl", options, &mut collector)
