@@ -1241,3 +1241,33 @@ fn assign_lists_main_topics_by_default_and_keeps_every_document() {
         assert!(all_rows.contains(row), "{row} not in {all}");
     }
 }
+
+#[test]
+fn build_reports_an_unterminated_csv_quote_with_its_line() {
+    // Source: RFC 4180 §2.5-2.7 (a quoted field ends at its closing quote);
+    // issue 11, item 3: the record that opens a quote never closed is a
+    // skipped record with file and line, not a field that swallows the rest
+    // of the file.
+    let scratch = Scratch::new();
+    scratch.write(
+        "bad.csv",
+        "id,text\n1,harbour boat fishing\n2,harbour boat net\n3,\"unterminated harbour boat\n4,fine text here harbour\n",
+    );
+    themata(scratch.root())
+        .args([
+            "build",
+            "bad.csv",
+            "--out",
+            "x",
+            "--min-docs",
+            "1",
+            "--max-doc-share",
+            "1",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains(
+            "3 read, 2 kept, 1 skipped (bad_record 1)",
+        ))
+        .stderr(predicate::str::contains("bad.csv:4:").and(predicate::str::contains("never closed")));
+}
