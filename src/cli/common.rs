@@ -8,7 +8,7 @@ use std::path::{Path, PathBuf};
 
 use themata::evaluate::score;
 use themata::fitting::fit::{self, FitTiming};
-use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus};
+use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus, CorpusError};
 use themata::model::Model;
 use themata::model::summary::FitSummary;
 use themata::settings::{FitPlan, InputOptions, TokenizerOptions, VocabularyOptions};
@@ -33,8 +33,19 @@ pub fn build_corpus(
         tokenizer: tokenizer.resolve()?,
         prune: vocabulary.resolve()?,
     };
-    let (corpus, summary) = corpus::build(inputs, &settings)?;
-    print_diagnostics(&summary);
+    let (corpus, summary) = match corpus::build(inputs, &settings) {
+        Ok(built) => built,
+        Err(CorpusError::Empty { summary }) => {
+            // The examples explain the failure, so they are printed even
+            // when quiet; the error repeats the counts per reason.
+            print_diagnostics(&summary);
+            return Err(CorpusError::Empty { summary }.into());
+        }
+        Err(other) => return Err(other.into()),
+    };
+    if !quiet {
+        print_diagnostics(&summary);
+    }
     if !quiet {
         print_summary(&summary);
     }
@@ -61,15 +72,10 @@ pub fn print_diagnostics(summary: &BuildSummary) {
 
 fn print_summary(summary: &BuildSummary) {
     let skipped: usize = summary.skipped.values().sum();
-    let reasons: Vec<String> = summary
-        .skipped
-        .iter()
-        .map(|(reason, count)| format!("{reason} {count}"))
-        .collect();
-    let reasons = if reasons.is_empty() {
+    let reasons = if summary.skipped.is_empty() {
         String::new()
     } else {
-        format!(" ({})", reasons.join(", "))
+        format!(" ({})", summary.skipped_reasons())
     };
     println!(
         "documents: {} read, {} kept, {} skipped{}",

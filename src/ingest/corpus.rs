@@ -117,10 +117,50 @@ pub enum CorpusError {
     Read(#[from] ReadError),
     #[error(transparent)]
     Tokenize(#[from] TokenizeError),
+    /// Every document was skipped; the summary says why (per reason, and
+    /// how many words each pruning rule removed) and lists them.
     #[error(
-        "no document has any words left ({read} read, {skipped} skipped); check the inputs, the text field and the pruning settings"
+        "no document has any words left ({}); check the inputs, the text field and the pruning settings",
+        .summary.describe()
     )]
-    Empty { read: usize, skipped: usize },
+    Empty { summary: Box<BuildSummary> },
+}
+
+impl BuildSummary {
+    /// Skipped documents per reason, e.g. `empty 1, no_tokens 3`.
+    pub fn skipped_reasons(&self) -> String {
+        self.skipped
+            .iter()
+            .map(|(reason, count)| format!("{reason} {count}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+
+    /// What was read, kept and skipped (per reason), and how pruning shrank
+    /// the vocabulary, in one line.
+    pub fn describe(&self) -> String {
+        let skipped: usize = self.skipped.values().sum();
+        let reasons = if self.skipped.is_empty() {
+            String::new()
+        } else {
+            format!(": {}", self.skipped_reasons())
+        };
+        let pruning = &self.pruning;
+        format!(
+            "{} read, {} kept, {} skipped{reasons}; {} of {} tokens kept; vocabulary {} of {} words seen, dropped: {} too rare, {} too common, {} over the cap, {} listed",
+            self.documents_read,
+            self.documents_kept,
+            skipped,
+            self.tokens,
+            self.tokens_before_pruning,
+            self.vocabulary,
+            pruning.words_seen,
+            pruning.too_rare,
+            pruning.too_common,
+            pruning.over_cap,
+            pruning.dropped_by_list
+        )
+    }
 }
 
 fn kind_name(kind: DiagnosticKind) -> String {
@@ -201,12 +241,6 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
     for diagnostic in &diagnostics {
         *skipped.entry(kind_name(diagnostic.kind)).or_insert(0) += 1;
     }
-    if kept_docs.is_empty() {
-        return Err(CorpusError::Empty {
-            read: counts.records_seen,
-            skipped: diagnostics.len(),
-        });
-    }
     let summary = BuildSummary {
         documents_read: counts.records_seen,
         documents_kept: kept_docs.len(),
@@ -217,6 +251,11 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
         vocabulary: vocabulary.len(),
         pruning,
     };
+    if kept_docs.is_empty() {
+        return Err(CorpusError::Empty {
+            summary: Box::new(summary),
+        });
+    }
     let corpus = Corpus {
         tokenizer: settings.tokenizer.clone(),
         vocabulary,

@@ -1271,3 +1271,56 @@ fn build_reports_an_unterminated_csv_quote_with_its_line() {
         ))
         .stderr(predicate::str::contains("bad.csv:4:").and(predicate::str::contains("never closed")));
 }
+
+#[test]
+fn build_says_why_when_every_document_is_skipped() {
+    // Source: issue 11, item 4 — when nothing is left, the same per-reason
+    // summary and first examples as on success, pruning included (how many
+    // words each rule removed).
+    let scratch = Scratch::new();
+    for idx in 1..=3 {
+        scratch.write(
+            &format!("docs/{idx}.txt"),
+            format!("unique{idx} words{idx} here{idx}"),
+        );
+    }
+    scratch.write("docs/blank.txt", "  \n");
+    themata(scratch.root())
+        .args(["build", "docs", "--out", "c.bin", "--quiet"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains(
+            "4 read, 0 kept, 4 skipped: empty 1, no_tokens 3; 0 of 9 tokens kept; vocabulary 0 of 9 words seen, dropped: 9 too rare, 0 too common",
+        ))
+        .stderr(predicate::str::contains("skipped: docs/blank.txt"))
+        .stderr(predicate::str::contains("`1.txt` has no words left after vocabulary pruning"));
+    assert!(!scratch.path("c.bin").exists());
+}
+
+#[test]
+fn quiet_run_prints_no_skipped_documents_and_keeps_them_in_build_json() {
+    // Source: issue 11, item 11 — quiet means quiet, with the counts in the
+    // files.
+    let scratch = Scratch::new();
+    run_config(&scratch, "");
+    scratch.write("docs/blank.txt", "   ");
+    let output = themata(scratch.root())
+        .args(["run", "run.toml", "--quiet"])
+        .output()
+        .unwrap();
+    assert!(output.status.success());
+    assert!(
+        output.stderr.is_empty(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let build = read_json(&scratch.path("out/build.json"));
+    assert_eq!(build["skipped"]["empty"], 1);
+    assert_eq!(build["diagnostics"].as_array().unwrap().len(), 1);
+    // Without --quiet the skipped document is listed.
+    themata(scratch.root())
+        .args(["run", "run.toml"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("blank.txt"));
+}
