@@ -47,7 +47,7 @@ pub fn build_corpus(
         print_diagnostics(&summary);
     }
     if !quiet {
-        print_summary(&summary);
+        print_summary(&summary)?;
     }
     if input.is_strict() && !summary.diagnostics.is_empty() {
         return Err(Failure::bad_input(anyhow::anyhow!(
@@ -70,19 +70,22 @@ pub fn print_diagnostics(summary: &BuildSummary) {
     }
 }
 
-fn print_summary(summary: &BuildSummary) {
+fn print_summary(summary: &BuildSummary) -> Result<(), Failure> {
     let skipped: usize = summary.skipped.values().sum();
     let reasons = if summary.skipped.is_empty() {
         String::new()
     } else {
         format!(" ({})", summary.skipped_reasons())
     };
-    println!(
+    say!(
         "documents: {} read, {} kept, {} skipped{}",
-        summary.documents_read, summary.documents_kept, skipped, reasons
-    );
+        summary.documents_read,
+        summary.documents_kept,
+        skipped,
+        reasons
+    )?;
     let pruning = &summary.pruning;
-    println!(
+    say!(
         "tokens: {} kept of {}; vocabulary: {} words of {} seen (dropped: {} too rare, {} too common, {} over the cap, {} listed)",
         summary.tokens,
         summary.tokens_before_pruning,
@@ -92,7 +95,8 @@ fn print_summary(summary: &BuildSummary) {
         pruning.too_common,
         pruning.over_cap,
         pruning.dropped_by_list
-    );
+    )?;
+    Ok(())
 }
 
 /// Parses a credible-interval probability strictly between 0 and 1.
@@ -190,8 +194,8 @@ pub fn fit_model(
 }
 
 /// What was fitted, and a warning when the trace has not levelled off.
-pub fn print_fit_line(summary: &FitSummary, out: &Path) {
-    println!(
+pub fn print_fit_line(summary: &FitSummary, out: &Path) -> Result<(), Failure> {
+    say!(
         "fitted {} topics to {} tokens in {} sweeps: log-likelihood {:.1}, {:.0} token updates/s; wrote {}",
         summary.topics,
         summary.tokens,
@@ -199,25 +203,25 @@ pub fn print_fit_line(summary: &FitSummary, out: &Path) {
         summary.log_likelihood,
         summary.tokens_per_second,
         out.display()
-    );
+    )?;
     if let Some(perplexity) = summary.heldout_perplexity {
-        println!("held-out perplexity: {perplexity:.2} (document completion)");
+        say!("held-out perplexity: {perplexity:.2} (document completion)")?;
     }
-    print_convergence(summary);
+    print_convergence(summary)
 }
 
 /// Prints the learned priors' summary and warns when not converged (stderr).
-pub fn print_convergence(summary: &FitSummary) {
+pub fn print_convergence(summary: &FitSummary) -> Result<(), Failure> {
     if summary.learned_alpha {
         let alpha: Vec<String> = summary.alpha.iter().map(|a| format!("{a:.3}")).collect();
-        println!(
+        say!(
             "learned alpha: [{}] (sum {:.3})",
             alpha.join(", "),
             summary.alpha.iter().sum::<f64>()
-        );
+        )?;
     }
     if summary.learned_beta {
-        println!("learned beta: {}", summary.beta);
+        say!("learned beta: {}", summary.beta)?;
     }
     let convergence = &summary.convergence;
     if !convergence.converged {
@@ -231,4 +235,5 @@ pub fn print_convergence(summary: &FitSummary) {
             ),
         }
     }
+    Ok(())
 }

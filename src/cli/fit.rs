@@ -97,7 +97,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     }
     folder::write_model_folder(&out, &model, &summary)?;
     if !args.quiet {
-        print_fit_line(&summary, &out);
+        print_fit_line(&summary, &out)?;
     }
     Ok(())
 }

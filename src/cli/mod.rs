@@ -1,6 +1,24 @@
 //! Command-line glue: the argument definitions, the error type that carries
 //! an exit code, and the dispatch to one file per subcommand.
 
+/// `println!` to standard output that ends the command quietly when the
+/// reader has gone away (`themata score DIR | head -1`) instead of
+/// panicking: a write error becomes a [`Failure::output`].
+macro_rules! say {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        writeln!(std::io::stdout().lock(), $($arg)*).map_err($crate::cli::Failure::output)
+    }};
+}
+
+/// [`say!`] without the line break.
+macro_rules! say_raw {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        write!(std::io::stdout().lock(), $($arg)*).map_err($crate::cli::Failure::output)
+    }};
+}
+
 mod assign;
 mod bench;
 mod build;

@@ -83,15 +83,17 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     let mut table = Vec::new();
     report::write_topics(&mut table, &topics, ListingFormat::Table, listing.numbers)
         .map_err(Failure::system)?;
-    print!("{}", String::from_utf8_lossy(&table));
+    say_raw!("{}", String::from_utf8_lossy(&table))?;
     if let Some(agreement) = label_agreement(&model) {
-        println!(
+        say!(
             "label agreement: normalised mutual information {:.3} between each document's top topic and its label ({} labelled documents, {} labels)",
-            agreement.nmi, agreement.documents, agreement.labels
-        );
+            agreement.nmi,
+            agreement.documents,
+            agreement.labels
+        )?;
     }
     if !args.quiet {
-        print_fit_line(&summary, &out_dir);
+        print_fit_line(&summary, &out_dir)?;
     }
     Ok(())
 }

@@ -117,9 +117,9 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
             let mut value = serde_json::to_value(&output).map_err(Failure::system)?;
             args.precision.resolve().round_json(&mut value);
             let text = serde_json::to_string_pretty(&value).map_err(Failure::system)?;
-            println!("{text}");
+            say!("{text}")?;
         }
-        _ => print_table(&output),
+        _ => print_table(&output)?,
     }
     Ok(())
 }
@@ -212,9 +212,9 @@ fn coherence(model: &Model, args: &ScoreArgs) -> Result<CoherenceReport, Failure
     result.map_err(Failure::bad_input)
 }
 
-fn print_table(output: &ScoreOutput) {
+fn print_table(output: &ScoreOutput) -> Result<(), Failure> {
     match output.heldout_perplexity {
-        Some(perplexity) => println!(
+        Some(perplexity) => say!(
             "held-out perplexity {perplexity:.3} ({}; {} tokens scored in {} documents, {} unknown tokens, {} documents with no known word)",
             match output.method {
                 Some(Method::LeftToRight) => "left-to-right",
@@ -224,20 +224,33 @@ fn print_table(output: &ScoreOutput) {
             output.heldout_documents,
             output.unknown_tokens,
             output.documents_without_known_words
-        ),
-        None => println!("held-out perplexity: not computed (pass --heldout INPUT)"),
+        )?,
+        None => say!("held-out perplexity: not computed (pass --heldout INPUT)")?,
     }
     let c = &output.coherence;
-    println!(
+    say!(
         "coherence over the top {} words: UMass {:.3}, NPMI {:.3} (window {}), C_V {:.3} (window {})",
-        c.top_words, c.umass, c.npmi, c.npmi_window, c.cv, c.cv_window
-    );
-    println!(
+        c.top_words,
+        c.umass,
+        c.npmi,
+        c.npmi_window,
+        c.cv,
+        c.cv_window
+    )?;
+    say!(
         "{:>5}  {:>7}  {:>6}  {:>6}  {:>6}  {:>10}  {:>9}  {:>8}  {:>8}  top words",
-        "topic", "umass", "npmi", "cv", "share", "prevalence", "eff.words", "distinct", "exclusiv"
-    );
+        "topic",
+        "umass",
+        "npmi",
+        "cv",
+        "share",
+        "prevalence",
+        "eff.words",
+        "distinct",
+        "exclusiv"
+    )?;
     for row in &c.per_topic {
-        println!(
+        say!(
             "{:>5}  {:>7.3}  {:>6.3}  {:>6.3}  {:>5.1}%  {:>9.1}%  {:>9.1}  {:>8.3}  {:>8.3}  {}",
             row.topic,
             row.umass,
@@ -254,6 +267,7 @@ fn print_table(output: &ScoreOutput) {
                 .cloned()
                 .collect::<Vec<_>>()
                 .join(" ")
-        );
+        )?;
     }
+    Ok(())
 }

@@ -100,12 +100,17 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
     let json = serde_json::to_vec_pretty(&json).map_err(Failure::system)?;
     staged.write(SUMMARY_FILE, &json)?;
     staged.commit()?;
-    println!(
+    say!(
         "{:>6}  {:>12}  {:>8}  {:>7}  {:>7}  {:>9}",
-        "topics", "perplexity", "sd", "npmi", "umass", "stability"
-    );
+        "topics",
+        "perplexity",
+        "sd",
+        "npmi",
+        "umass",
+        "stability"
+    )?;
     for row in &report.rows {
-        println!(
+        say!(
             "{:>6}  {:>12.3}  {:>8.3}  {:>7.3}  {:>7.2}  {:>9}{}",
             row.topics,
             row.heldout_perplexity,
@@ -118,13 +123,13 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
             } else {
                 ""
             }
-        );
+        )?;
     }
-    println!(
+    say!(
         "recommended: {} topics ({}); wrote {}",
         report.recommended_topics,
         report.rule,
         args.out.display()
-    );
+    )?;
     Ok(())
 }

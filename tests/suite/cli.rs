@@ -1324,3 +1324,67 @@ fn quiet_run_prints_no_skipped_documents_and_keeps_them_in_build_json() {
         .success()
         .stderr(predicate::str::contains("blank.txt"));
 }
+
+#[test]
+fn every_command_that_prints_ends_quietly_on_a_closed_pipe() {
+    // Source: issue 11, item 6 — `themata score DIR | head -1` must not
+    // panic; the reader of standard output goes away before the command
+    // prints (pipe(7): writes then fail with EPIPE), and every command ends
+    // with exit 0 and nothing on stderr but its usual messages.
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    run_config(&scratch, "");
+    scratch.write(
+        "new.jsonl",
+        "{\"id\":\"n1\",\"text\":\"harbour tide quay boat\"}\n",
+    );
+    let commands: [&[&str]; 10] = [
+        &["build", "docs", "--out", "again.bin", "--min-docs", "1"],
+        &[
+            "fit",
+            "corpus.bin",
+            "-k",
+            "3",
+            "--iterations",
+            "20",
+            "--out",
+            "m2",
+        ],
+        &["show", "model"],
+        &["show", "model", "--documents", "--format", "tsv"],
+        &["run", "run.toml"],
+        &["assign", "model", "new.jsonl"],
+        &["score", "model"],
+        &["score", "model", "--format", "json"],
+        &[
+            "sweep",
+            "corpus.bin",
+            "--topics",
+            "2,3",
+            "--seeds",
+            "1",
+            "--iterations",
+            "20",
+            "--out",
+            "sw",
+        ],
+        &["bench", "--quick"],
+    ];
+    for args in commands {
+        let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("themata"))
+            .current_dir(scratch.root())
+            .args(args)
+            .stdout(std::process::Stdio::piped())
+            .stderr(std::process::Stdio::piped())
+            .spawn()
+            .unwrap();
+        drop(child.stdout.take());
+        let output = child.wait_with_output().unwrap();
+        let stderr = String::from_utf8_lossy(&output.stderr);
+        assert_eq!(output.status.code(), Some(0), "{args:?}: {stderr}");
+        assert!(
+            !stderr.contains("panicked") && !stderr.contains("Broken pipe"),
+            "{args:?}: {stderr}"
+        );
+    }
+}
