@@ -20,7 +20,8 @@ use crate::fitting::fit::{
 use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
 use crate::fitting::schedule::{EXACT_UP_TO_TOPICS, SamplerChoice, SamplerKind};
 use crate::ingest::read::{
-    DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, InputFormat, ReadOptions,
+    DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, FieldRole, InputFormat,
+    NamedField, ReadOptions,
 };
 use crate::ingest::tokenize::{
     self, DEFAULT_MAX_LENGTH, DEFAULT_MIN_LENGTH, DEFAULT_STOPWORDS, TokenizerSettings,
@@ -100,7 +101,9 @@ impl WholeRange {
     }
 
     fn describe(self) -> String {
-        if self.max == u64::MAX {
+        if self.max == u64::MAX && self.min == 0 {
+            "a whole number (0 or more)".to_string()
+        } else if self.max == u64::MAX {
             format!("a whole number of at least {}", self.min)
         } else {
             format!("a whole number from {} to {}", self.min, self.max)
@@ -207,6 +210,8 @@ fn help(text: &str, default: impl std::fmt::Display) -> String {
 
 /// Token lengths, in characters.
 pub const TOKEN_LENGTH: WholeRange = WholeRange::at_least(1);
+/// Any whole number (seeds).
+pub const ANY_WHOLE: WholeRange = WholeRange::at_least(0);
 /// Counts that must be at least 1 (sweeps, samples, lags, words, documents, threads, shards).
 pub const AT_LEAST_ONE: WholeRange = WholeRange::at_least(1);
 /// Numbers of topics.
@@ -286,6 +291,19 @@ impl InputOptions {
             label_field: field("label_field", &self.label_field, DEFAULT_LABEL_FIELD)?,
             date_field: field("date_field", &self.date_field, DEFAULT_DATE_FIELD)?,
             unique_ids: true,
+            named_fields: [
+                (FieldRole::Id, &self.id_field),
+                (FieldRole::Label, &self.label_field),
+                (FieldRole::Date, &self.date_field),
+            ]
+            .into_iter()
+            .filter_map(|(role, name)| {
+                name.as_ref().map(|name| NamedField {
+                    role,
+                    name: name.clone(),
+                })
+            })
+            .collect(),
         })
     }
 
@@ -476,6 +494,7 @@ pub struct FitOptions {
     #[arg(
         long,
         value_name = "S",
+        value_parser = ANY_WHOLE.parser::<u64>(),
         help = help("Seed of the random stream; the same seed and inputs give the same model", DEFAULT_SEED)
     )]
     pub seed: Option<u64>,
@@ -823,6 +842,40 @@ pub struct RunConfig {
     pub listing: ListingOptions,
 }
 
+/// A config-file error message with the Rust type names the TOML reader
+/// puts in it (`expected usize`) said in words.
+fn plain_type_names(message: &str) -> String {
+    const NAMES: [(&str, &str); 10] = [
+        ("usize", "a whole number (0 or more)"),
+        ("u64", "a whole number (0 or more)"),
+        ("u32", "a whole number (0 or more)"),
+        ("u16", "a whole number (0 or more)"),
+        ("u8", "a whole number (0 or more)"),
+        ("i64", "a whole number"),
+        ("i32", "a whole number"),
+        ("f64", "a number"),
+        ("f32", "a number"),
+        ("bool", "true or false"),
+    ];
+    let mut out = message.to_string();
+    for (name, words) in NAMES {
+        for lead in ["expected ", "expected a ", "expected an "] {
+            let pattern = format!("{lead}{name}");
+            if let Some(at) = out.find(&pattern) {
+                let end = at + pattern.len();
+                let boundary = out[end..]
+                    .chars()
+                    .next()
+                    .is_none_or(|c| !c.is_ascii_alphanumeric());
+                if boundary {
+                    out.replace_range(at..end, &format!("expected {words}"));
+                }
+            }
+        }
+    }
+    out
+}
+
 /// 1-based line of a byte offset in `text`.
 fn line_of(text: &str, offset: usize) -> usize {
     text[..offset.min(text.len())]
@@ -885,7 +938,7 @@ impl RunConfig {
         let mut config: RunConfig = toml::from_str(&text).map_err(|err| SettingsError::InFile {
             path: path.to_path_buf(),
             line: err.span().map_or(1, |span| line_of(&text, span.start)),
-            message: err.message().trim().to_string(),
+            message: plain_type_names(err.message().trim()),
         })?;
         config.validate_in_file(path, &text)?;
         let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
@@ -1035,6 +1088,16 @@ mod tests {
         let (_folder, path) = write_config("[fit]\ntopics = \"ten\"\n");
         let err = RunConfig::load(&path).unwrap_err().to_string();
         assert!(err.contains("run.toml:2:"), "{err}");
+        // Source: issue 11, item 7 — no Rust type names in messages.
+        assert!(err.contains("expected a whole number (0 or more)"), "{err}");
+        for (config, line) in [("[fit]\nseed = -1\n", 2), ("[fit]\niterations = 2.5\n", 2)] {
+            let (_folder, path) = write_config(config);
+            let err = RunConfig::load(&path).unwrap_err().to_string();
+            assert!(err.contains(&format!("run.toml:{line}:")), "{err}");
+            for name in ["usize", "u64", "u32", "f64"] {
+                assert!(!err.contains(name), "{err}");
+            }
+        }
     }
 
     #[test]

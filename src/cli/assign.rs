@@ -8,9 +8,9 @@ use themata::evaluate::score;
 use themata::ingest::read::{self, Diagnostic, RawDocument};
 use themata::ingest::tokenize::Tokenizer;
 use themata::report::{self, DocumentRow, DocumentView, ListingPlan};
-use themata::settings::{AT_LEAST_ONE, ListingOptions, resolve_threads};
+use themata::settings::{ANY_WHOLE, AT_LEAST_ONE, ListingOptions, resolve_threads};
 
-use super::common::parse_level;
+use super::common::{count, parse_level};
 use super::{Failure, RecordOptions};
 use themata::model::folder::load_model;
 
@@ -48,7 +48,7 @@ pub struct AssignArgs {
     #[arg(long, value_name = "S", default_value_t = 10, value_parser = AT_LEAST_ONE.parser::<usize>())]
     pub samples: usize,
     /// Seed of the fold-in random streams
-    #[arg(long, value_name = "S", default_value_t = 1)]
+    #[arg(long, value_name = "S", default_value_t = 1, value_parser = ANY_WHOLE.parser::<u64>())]
     pub seed: u64,
     /// Worker threads [default: all cores]
     #[arg(long, value_name = "T", value_parser = AT_LEAST_ONE.parser::<usize>())]
@@ -79,13 +79,14 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     let view = DocumentView::of(&plan, model.n_topics());
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
-    if args.format == AssignFormat::Tsv {
-        view.write_tsv_header(&mut out).map_err(Failure::output)?;
-    }
+    // The header is written with the first rows (or at the end), so that a
+    // bad input stops the command before anything is printed.
+    let mut header_due = args.format == AssignFormat::Tsv;
     let mut batch: Vec<RawDocument> = Vec::with_capacity(BATCH);
     let mut totals = Totals::default();
     let mut failure: Option<Failure> = None;
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
+    let mut warnings: Vec<String> = Vec::new();
     // Each document is encoded, placed and printed into its own buffer in
     // parallel; the buffers are written in input order.
     let mut flush = |batch: &mut Vec<RawDocument>, totals: &mut Totals| -> Result<(), Failure> {
@@ -115,6 +116,10 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
                 })
                 .collect()
         });
+        if header_due {
+            view.write_tsv_header(&mut out).map_err(Failure::output)?;
+            header_due = false;
+        }
         for result in placed {
             let (row, text) = result.map_err(Failure::system)?;
             totals.add(&row);
@@ -130,18 +135,24 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
         batch.clear();
         Ok(())
     };
-    read::read_documents(&args.inputs, &options, &mut diagnostics, &mut |raw| {
-        if failure.is_some() {
-            return;
-        }
-        batch.push(raw);
-        if batch.len() == BATCH
-            && let Err(err) = flush(&mut batch, &mut totals)
-        {
-            failure = Some(err);
-        }
-    })
-    .map_err(Failure::bad_input)?;
+    read::read_documents(
+        &args.inputs,
+        &options,
+        &mut diagnostics,
+        &mut warnings,
+        &mut |raw| {
+            if failure.is_some() {
+                return;
+            }
+            batch.push(raw);
+            if batch.len() == BATCH
+                && let Err(err) = flush(&mut batch, &mut totals)
+            {
+                failure = Some(err);
+            }
+        },
+    )
+    .map_err(super::record_read_failure)?;
     if let Some(err) = failure {
         return Err(err);
     }
@@ -150,12 +161,15 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     for diagnostic in &diagnostics {
         eprintln!("themata: skipped: {diagnostic}");
     }
+    for warning in &warnings {
+        eprintln!("themata: warning: {warning}");
+    }
     if !args.quiet {
         eprintln!(
-            "assigned {} documents: {} known tokens, {} unknown tokens; {} with no known word; {} skipped",
-            totals.documents,
-            totals.tokens,
-            totals.unknown,
+            "assigned {}: {} known, {} unknown; {} with no known word; {} skipped",
+            count(totals.documents, "document"),
+            count(totals.tokens, "token"),
+            count(totals.unknown, "token"),
             totals.without_known_words,
             diagnostics.len()
         );

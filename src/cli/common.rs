@@ -11,6 +11,7 @@ use themata::fitting::fit::{self, FitTiming};
 use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus, CorpusError};
 use themata::model::Model;
 use themata::model::summary::FitSummary;
+use themata::report::numbers::Numbers;
 use themata::settings::{FitPlan, InputOptions, TokenizerOptions, VocabularyOptions};
 
 use super::Failure;
@@ -45,6 +46,9 @@ pub fn build_corpus(
     };
     if !quiet {
         print_diagnostics(&summary);
+        for warning in &summary.warnings {
+            eprintln!("themata: warning: {warning}");
+        }
     }
     if !quiet {
         print_summary(&summary)?;
@@ -97,6 +101,15 @@ fn print_summary(summary: &BuildSummary) -> Result<(), Failure> {
         pruning.dropped_by_list
     )?;
     Ok(())
+}
+
+/// `n` and the noun, plural unless `n` is 1 (`1 thread`, `2 threads`).
+pub fn count(n: usize, noun: &str) -> String {
+    if n == 1 {
+        format!("1 {noun}")
+    } else {
+        format!("{n} {noun}s")
+    }
 }
 
 /// Parses a credible-interval probability strictly between 0 and 1.
@@ -221,7 +234,13 @@ pub fn print_convergence(summary: &FitSummary) -> Result<(), Failure> {
         )?;
     }
     if summary.learned_beta {
-        say!("learned beta: {}", summary.beta)?;
+        let beta = match &summary.beta {
+            serde_json::Value::Number(number) => number
+                .as_f64()
+                .map_or_else(|| number.to_string(), |beta| Numbers::default().text(beta)),
+            other => other.to_string(),
+        };
+        say!("learned beta: {beta}")?;
     }
     let convergence = &summary.convergence;
     if !convergence.converged {

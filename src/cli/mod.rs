@@ -170,12 +170,10 @@ pub struct RecordOptions {
     /// Input format: auto decides by file extension (.txt/.md, .jsonl/.ndjson, .csv)
     #[arg(long, value_enum, default_value_t = themata::ingest::read::InputFormat::Auto)]
     pub input_format: themata::ingest::read::InputFormat,
-    /// JSON Lines field or CSV column holding the text
-    #[arg(long, value_name = "NAME", default_value = themata::ingest::read::DEFAULT_TEXT_FIELD)]
-    pub text_field: String,
-    /// JSON Lines field or CSV column holding the document id
-    #[arg(long, value_name = "NAME", default_value = themata::ingest::read::DEFAULT_ID_FIELD)]
-    pub id_field: String,
+    #[arg(long, value_name = "NAME", help = format!("JSON Lines field or CSV column holding the text [default: {}]", themata::ingest::read::DEFAULT_TEXT_FIELD))]
+    pub text_field: Option<String>,
+    #[arg(long, value_name = "NAME", help = format!("JSON Lines field or CSV column holding the document id [default: {}]", themata::ingest::read::DEFAULT_ID_FIELD))]
+    pub id_field: Option<String>,
 }
 
 impl RecordOptions {
@@ -183,8 +181,8 @@ impl RecordOptions {
     pub fn resolve(&self) -> Result<themata::ingest::read::ReadOptions, SettingsError> {
         InputOptions {
             format: Some(self.input_format),
-            text_field: Some(self.text_field.clone()),
-            id_field: Some(self.id_field.clone()),
+            text_field: self.text_field.clone(),
+            id_field: self.id_field.clone(),
             ..InputOptions::default()
         }
         .resolve()
@@ -227,7 +225,7 @@ pub struct FitArgs {
     #[arg(long, value_name = "DIR", conflicts_with_all = ["corpus", "out"])]
     pub resume: Option<PathBuf>,
     /// Write a checkpoint (DIR.checkpoint beside the output folder) every N sweeps
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = themata::settings::AT_LEAST_ONE.parser::<u64>())]
     pub checkpoint_every: Option<u64>,
     #[command(flatten, next_help_heading = "Fitting")]
     pub fit: FitOptions,
@@ -257,6 +255,20 @@ pub struct RunArgs {
     /// No progress bar; print only the report
     #[arg(long, short)]
     pub quiet: bool,
+}
+
+/// A failure to read the new documents of `assign` or `score`, where the
+/// input format option is `--input-format` (`--format` names the output).
+pub fn record_read_failure(err: themata::ingest::read::ReadError) -> Failure {
+    use themata::ingest::read::ReadError;
+    match err {
+        ReadError::UnknownFormat { path } => Failure::bad_input(anyhow::anyhow!(
+            "{}: cannot tell the format from the file extension; pass --input-format text|jsonl|csv",
+            path.display()
+        )),
+        ReadError::Io { .. } => Failure::system(err),
+        other => Failure::bad_input(other),
+    }
 }
 
 /// A closed pipe (`themata show | head`) is not an error.

@@ -14,8 +14,7 @@ use themata::ingest::read::{self, Diagnostic};
 use themata::ingest::tokenize::Tokenizer;
 use themata::model::Model;
 use themata::model::format::FileKind;
-use themata::report::ListingFormat;
-use themata::settings::PrecisionOptions;
+use themata::settings::{ANY_WHOLE, AT_LEAST_ONE, PrecisionOptions, WholeRange};
 
 use super::{Failure, RecordOptions};
 use themata::model::folder::load_model;
@@ -33,30 +32,39 @@ pub struct ScoreArgs {
     #[arg(long, value_enum, default_value_t = Method::Completion)]
     pub method: Method,
     /// Particles of the left-to-right estimator
-    #[arg(long, value_name = "R", default_value_t = ScoreSettings::default().particles)]
+    #[arg(long, value_name = "R", default_value_t = ScoreSettings::default().particles, value_parser = AT_LEAST_ONE.parser::<usize>())]
     pub particles: usize,
     /// Corpus file whose documents give the coherence probabilities [default: the training corpus]
     #[arg(long, value_name = "CORPUS")]
     pub reference: Option<PathBuf>,
     /// Top words per topic that coherence is computed over
-    #[arg(long, value_name = "M", default_value_t = 10)]
+    #[arg(long, value_name = "M", default_value_t = 10, value_parser = WholeRange::at_least(2).parser::<usize>())]
     pub top_words: usize,
     /// Sliding window of NPMI, in tokens (a document shorter than the window is one window)
-    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().npmi_window)]
+    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().npmi_window, value_parser = WholeRange::at_least(2).parser::<usize>())]
     pub npmi_window: usize,
     /// Sliding window of C_V, in tokens
-    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().cv_window)]
+    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().cv_window, value_parser = WholeRange::at_least(2).parser::<usize>())]
     pub cv_window: usize,
-    /// Output layout (table or json)
-    #[arg(long, value_enum, default_value_t = ListingFormat::Table)]
-    pub format: ListingFormat,
+    /// Output layout
+    #[arg(long, value_enum, default_value_t = ScoreFormat::Table)]
+    pub format: ScoreFormat,
     #[command(flatten)]
     pub records: RecordOptions,
     /// Seed of the scoring random streams
-    #[arg(long, value_name = "S", default_value_t = 1)]
+    #[arg(long, value_name = "S", default_value_t = 1, value_parser = ANY_WHOLE.parser::<u64>())]
     pub seed: u64,
     #[command(flatten)]
     pub precision: PrecisionOptions,
+}
+
+/// Output layouts of `score`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum ScoreFormat {
+    /// A summary line and an aligned table of the topics.
+    Table,
+    /// One JSON object.
+    Json,
 }
 
 /// The JSON object `score --format json` prints.
@@ -76,11 +84,6 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
     if args.particles == 0 {
         return Err(Failure::bad_input(anyhow::anyhow!(
             "--particles must be at least 1"
-        )));
-    }
-    if args.format == ListingFormat::Tsv {
-        return Err(Failure::bad_input(anyhow::anyhow!(
-            "score prints --format table or json"
         )));
     }
     let model = load_model(&args.dir)?;
@@ -113,13 +116,13 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
         coherence,
     };
     match args.format {
-        ListingFormat::Json => {
+        ScoreFormat::Json => {
             let mut value = serde_json::to_value(&output).map_err(Failure::system)?;
             args.precision.resolve().round_json(&mut value);
             let text = serde_json::to_string_pretty(&value).map_err(Failure::system)?;
             say!("{text}")?;
         }
-        _ => print_table(&output)?,
+        ScoreFormat::Table => print_table(&output)?,
     }
     Ok(())
 }
@@ -144,17 +147,27 @@ fn heldout_documents(model: &Model, args: &ScoreArgs) -> Result<Vec<EncodedDocum
     let options = args.records.resolve()?;
     let mut documents = Vec::new();
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
-    read::read_documents(&args.heldout, &options, &mut diagnostics, &mut |raw| {
-        documents.push(score::encode_text(
-            &tokenizer,
-            &model.corpus.vocabulary,
-            &raw.id,
-            &raw.text,
-        ));
-    })
-    .map_err(Failure::bad_input)?;
+    let mut warnings: Vec<String> = Vec::new();
+    read::read_documents(
+        &args.heldout,
+        &options,
+        &mut diagnostics,
+        &mut warnings,
+        &mut |raw| {
+            documents.push(score::encode_text(
+                &tokenizer,
+                &model.corpus.vocabulary,
+                &raw.id,
+                &raw.text,
+            ));
+        },
+    )
+    .map_err(super::record_read_failure)?;
     for diagnostic in &diagnostics {
         eprintln!("themata: skipped: {diagnostic}");
+    }
+    for warning in &warnings {
+        eprintln!("themata: warning: {warning}");
     }
     Ok(documents)
 }

@@ -7,9 +7,10 @@ use themata::evaluate::k_search::{self, KSearchSettings};
 use themata::fitting::fit::PriorSpec;
 use themata::model::folder::SUMMARY_FILE;
 use themata::model::format::StagedFolder;
-use themata::settings::{FitOptions, PrecisionOptions};
+use themata::settings::{AT_LEAST_ONE, FitOptions, PrecisionOptions, ShareRange, TOPICS};
 
 use super::Failure;
+use super::common::count;
 
 /// Arguments of `themata sweep`.
 #[derive(clap::Args, Debug)]
@@ -21,16 +22,16 @@ pub struct SweepArgs {
     #[arg(value_name = "CORPUS")]
     pub corpus: PathBuf,
     /// Candidate numbers of topics, comma-separated
-    #[arg(long, value_name = "K,K,...", value_delimiter = ',', required = true)]
+    #[arg(long, value_name = "K,K,...", value_delimiter = ',', required = true, value_parser = TOPICS.parser::<usize>())]
     pub topics: Vec<usize>,
     /// Seeds fitted per candidate (1, 2, ... S); two or more measure stability
-    #[arg(long, value_name = "S", default_value_t = 2)]
+    #[arg(long, value_name = "S", default_value_t = 2, value_parser = AT_LEAST_ONE.parser::<u64>())]
     pub seeds: u64,
     /// Fraction of documents held out for perplexity
-    #[arg(long, value_name = "F", default_value_t = 0.2)]
+    #[arg(long, value_name = "F", default_value_t = 0.2, value_parser = ShareRange::OPEN.parser())]
     pub holdout: f64,
     /// Gibbs sweeps per fit
-    #[arg(long, value_name = "N", default_value_t = 500)]
+    #[arg(long, value_name = "N", default_value_t = 500, value_parser = AT_LEAST_ONE.parser::<u64>())]
     pub iterations: u64,
     /// Document-topic prior of each fit (as for `fit`)
     #[arg(long, value_name = "learn|X", default_value = "learn")]
@@ -39,7 +40,7 @@ pub struct SweepArgs {
     #[arg(long, value_name = "learn|X", default_value = "learn")]
     pub beta: PriorSpec,
     /// Worker threads (runs are spread over them) [default: all cores]
-    #[arg(long, value_name = "T")]
+    #[arg(long, value_name = "T", value_parser = AT_LEAST_ONE.parser::<usize>())]
     pub threads: Option<usize>,
     /// Folder for sweep.tsv and summary.json (the table as JSON)
     #[arg(long, value_name = "DIR")]
@@ -81,10 +82,10 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
     let staged = StagedFolder::begin(&args.out)?;
     let pool = themata::thread_pool(plan.threads).map_err(Failure::system)?;
     eprintln!(
-        "themata: sweeping {} candidates x {} seeds on {} threads",
-        settings.topics.len(),
-        settings.seeds.len(),
-        plan.threads
+        "themata: sweeping {} x {} on {}",
+        count(settings.topics.len(), "candidate"),
+        count(settings.seeds.len(), "seed"),
+        count(plan.threads, "thread")
     );
     let report = pool
         .install(|| k_search::run_k_search(&corpus, &settings))

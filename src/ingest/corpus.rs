@@ -108,6 +108,9 @@ pub struct BuildSummary {
     pub vocabulary: usize,
     /// How pruning shrank the vocabulary.
     pub pruning: PruneReport,
+    /// What is worth saying once about the inputs (a named field no record has).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub warnings: Vec<String>,
 }
 
 /// Problems that stop a build.
@@ -179,28 +182,35 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
     let mut tokens: Vec<u32> = Vec::new();
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
     let mut no_tokens: Vec<Diagnostic> = Vec::new();
-    let counts = read::read_documents(inputs, &settings.read, &mut diagnostics, &mut |doc| {
-        let start = tokens.len();
-        vocab.start_document();
-        tokenizer.for_each_token(&doc.text, &mut |token| tokens.push(vocab.add_token(token)));
-        if tokens.len() == start {
-            vocab.remove_document(&[]);
-            no_tokens.push(Diagnostic {
-                kind: DiagnosticKind::NoTokens,
-                origin: doc.origin.clone(),
-                document: Some(doc.id.clone()),
-                message: format!("document `{}` has no tokens after tokenizing", doc.id),
+    let mut warnings: Vec<String> = Vec::new();
+    let counts = read::read_documents(
+        inputs,
+        &settings.read,
+        &mut diagnostics,
+        &mut warnings,
+        &mut |doc| {
+            let start = tokens.len();
+            vocab.start_document();
+            tokenizer.for_each_token(&doc.text, &mut |token| tokens.push(vocab.add_token(token)));
+            if tokens.len() == start {
+                vocab.remove_document(&[]);
+                no_tokens.push(Diagnostic {
+                    kind: DiagnosticKind::NoTokens,
+                    origin: doc.origin.clone(),
+                    document: Some(doc.id.clone()),
+                    message: format!("document `{}` has no tokens after tokenizing", doc.id),
+                });
+                return;
+            }
+            offsets.push(tokens.len() as u64);
+            documents.push(DocumentInfo {
+                id: doc.id,
+                label: doc.label,
+                date: doc.date,
+                source: doc.origin.to_string(),
             });
-            return;
-        }
-        offsets.push(tokens.len() as u64);
-        documents.push(DocumentInfo {
-            id: doc.id,
-            label: doc.label,
-            date: doc.date,
-            source: doc.origin.to_string(),
-        });
-    })?;
+        },
+    )?;
     diagnostics.append(&mut no_tokens);
     let tokens_before_pruning = tokens.len();
     let (vocabulary, remap, pruning) = vocab.finish(&settings.prune);
@@ -242,6 +252,7 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
         *skipped.entry(kind_name(diagnostic.kind)).or_insert(0) += 1;
     }
     let summary = BuildSummary {
+        warnings,
         documents_read: counts.records_seen,
         documents_kept: kept_docs.len(),
         skipped,

@@ -697,7 +697,7 @@ fn assign_places_new_documents_and_flags_unknown_ones() {
     // format, as a row that says so.
     assert_eq!(rows[3], "n2\tunplaced\t\t\t");
     assert!(stderr.contains("flagged: document `n2`"), "{stderr}");
-    assert!(stderr.contains("3 unknown tokens"), "{stderr}");
+    assert!(stderr.contains("3 tokens unknown"), "{stderr}");
     let output = themata(scratch.root())
         .args(["assign", "model", "new.jsonl", "--format", "jsonl", "--quiet"])
         .output()
@@ -1387,4 +1387,128 @@ fn every_command_that_prints_ends_quietly_on_a_closed_pipe() {
             "{args:?}: {stderr}"
         );
     }
+}
+
+#[test]
+fn help_and_messages_name_the_right_flags_and_fields() {
+    // Source: issue 11, item 7 — help lists only what a command accepts,
+    // messages name the flag the command has, count in words ("1 thread"),
+    // carry no Rust type names, and a named field no record has is warned
+    // about once (a text field fails).
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let help = themata(scratch.root())
+        .args(["score", "--help"])
+        .output()
+        .unwrap();
+    let help = String::from_utf8(help.stdout).unwrap();
+    assert!(
+        help.contains("table") && help.contains("json") && !help.contains("tsv"),
+        "{help}"
+    );
+    themata(scratch.root())
+        .args(["score", "model", "--format", "tsv"])
+        .assert()
+        .code(BAD_INPUT);
+    scratch.write("notes.rtf", "harbour tide");
+    themata(scratch.root())
+        .args(["assign", "model", "notes.rtf"])
+        .assert()
+        .code(BAD_INPUT)
+        .stdout(predicate::str::is_empty())
+        .stderr(predicate::str::contains("pass --input-format text|jsonl|csv"));
+    for args in [
+        &[
+            "sweep",
+            "corpus.bin",
+            "--topics",
+            "2",
+            "--seeds",
+            "x",
+            "--out",
+            "s",
+        ][..],
+        &["score", "model", "--particles", "many"][..],
+        &["fit", "corpus.bin", "-k", "2", "--seed=-1", "--out", "m"][..],
+    ] {
+        themata(scratch.root())
+            .args(args)
+            .assert()
+            .code(BAD_INPUT)
+            .stderr(predicate::str::contains("is not a whole number"))
+            .stderr(predicate::str::contains("invalid digit").not());
+    }
+    themata(scratch.root())
+        .args([
+            "sweep",
+            "corpus.bin",
+            "--topics",
+            "2",
+            "--seeds",
+            "1",
+            "--threads",
+            "1",
+        ])
+        .args(["--iterations", "10", "--out", "s"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("1 candidate x 1 seed on 1 thread"));
+    scratch.write("one.jsonl", "{\"id\":\"n1\",\"body\":\"harbour tide quay\"}\n");
+    themata(scratch.root())
+        .args(["assign", "model", "one.jsonl", "--text-field", "body"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("assigned 1 document: 3 tokens known"));
+    // A named label field no record has: one warning. A text field no record
+    // has: a failure that lists the fields there are.
+    scratch.write(
+        "two.jsonl",
+        "{\"id\":\"a\",\"body\":\"harbour tide quay\"}\n{\"id\":\"b\",\"body\":\"seed soil plot\"}\n",
+    );
+    let output = themata(scratch.root())
+        .args([
+            "build",
+            "two.jsonl",
+            "--out",
+            "two.bin",
+            "--text-field",
+            "body",
+            "--label-field",
+            "theme",
+        ])
+        .args(["--min-docs", "1", "--max-doc-share", "1"])
+        .output()
+        .unwrap();
+    assert!(output.status.success());
+    let stderr = String::from_utf8(output.stderr).unwrap();
+    assert_eq!(
+        stderr
+            .matches("warning: no record of any input has the label field `theme`")
+            .count(),
+        1,
+        "{stderr}"
+    );
+    themata(scratch.root())
+        .args(["build", "two.jsonl", "--out", "two.bin"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains(
+            "no record has the text field `text` (fields seen: `id`, `body`)",
+        ));
+    // The label field left at its default is not warned about.
+    themata(scratch.root())
+        .args([
+            "build",
+            "two.jsonl",
+            "--out",
+            "two.bin",
+            "--text-field",
+            "body",
+            "--min-docs",
+            "1",
+        ])
+        .args(["--max-doc-share", "1"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("warning").not());
 }

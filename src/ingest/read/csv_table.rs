@@ -222,6 +222,7 @@ pub(super) fn read_csv<R: Read>(
             available: columns,
         });
     };
+    collector.note_fields(options, |name| find(name).is_some());
     let id_column = find(&options.id_field);
     let label_column = find(&options.label_field);
     let date_column = find(&options.date_field);

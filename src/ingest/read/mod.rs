@@ -74,6 +74,40 @@ pub enum InputFormat {
     Csv,
 }
 
+/// What an optional field of a record is for.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FieldRole {
+    Id,
+    Label,
+    Date,
+}
+
+impl FieldRole {
+    fn name(self) -> &'static str {
+        match self {
+            FieldRole::Id => "id",
+            FieldRole::Label => "label",
+            FieldRole::Date => "date",
+        }
+    }
+
+    /// What documents do without the field.
+    fn without(self) -> &'static str {
+        match self {
+            FieldRole::Id => "documents are named by file and line instead; check the field name",
+            FieldRole::Label => "no document has a label; check the field name",
+            FieldRole::Date => "no document has a date; check the field name",
+        }
+    }
+}
+
+/// An optional field the user named, to be warned about when no record has it.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct NamedField {
+    pub role: FieldRole,
+    pub name: String,
+}
+
 /// Resolved reading options.
 #[derive(Clone, Debug)]
 pub struct ReadOptions {
@@ -91,6 +125,9 @@ pub struct ReadOptions {
     /// corpus, where ids name documents; `assign` streams and keeps nothing
     /// per document, so it places every document whatever its id).
     pub unique_ids: bool,
+    /// Optional fields the user named (rather than left at their
+    /// defaults): a warning says so when no record of any input has one.
+    pub named_fields: Vec<NamedField>,
 }
 
 impl Default for ReadOptions {
@@ -102,6 +139,7 @@ impl Default for ReadOptions {
             label_field: DEFAULT_LABEL_FIELD.into(),
             date_field: DEFAULT_DATE_FIELD.into(),
             unique_ids: true,
+            named_fields: Vec::new(),
         }
     }
 }
@@ -142,7 +180,7 @@ pub enum ReadError {
     },
     /// A CSV header row lacks the text column.
     #[error(
-        "{path}: the header row has no column `{column}` (columns: {}); set the text field to the column holding the text",
+        "{path}: the header row has no column `{column}` (columns: {}); name the column holding the text with --text-field (text_field in a config file)",
         list_columns(.available)
     )]
     MissingColumn {
@@ -152,6 +190,19 @@ pub enum ReadError {
         column: String,
         /// The columns the header row does name.
         available: Vec<String>,
+    },
+    /// No record of a JSON Lines input has the text field.
+    #[error(
+        "{path}: no record has the text field `{field}` (fields seen: {}); name the field holding the text with --text-field (text_field in a config file)",
+        list_columns(.seen)
+    )]
+    MissingTextField {
+        /// The input.
+        path: PathBuf,
+        /// The text field that was asked for.
+        field: String,
+        /// Field names the records do have (the first few).
+        seen: Vec<String>,
     },
     /// A CSV input has no usable header row.
     #[error("{path}: {problem}; a CSV input must start with a header row naming its columns")]
@@ -197,14 +248,18 @@ pub struct ReadCounts {
 /// All inputs are checked (existence, format) before anything is read, so a
 /// mistyped path fails fast. Documents are handed over in input order, and
 /// within a folder in walk order.
+///
+/// `warnings` receives what is worth saying once about the whole call: an
+/// optional field the user named that no record of any input has.
 pub fn read_documents(
     inputs: &[PathBuf],
     options: &ReadOptions,
     diagnostics: &mut Vec<Diagnostic>,
+    warnings: &mut Vec<String>,
     sink: &mut dyn FnMut(RawDocument),
 ) -> Result<ReadCounts, ReadError> {
     let mut open_stdin = || -> Box<dyn BufRead> { Box::new(io::stdin().lock()) };
-    read_documents_from(inputs, options, diagnostics, sink, &mut open_stdin)
+    read_documents_from(inputs, options, diagnostics, warnings, sink, &mut open_stdin)
 }
 
 /// [`read_documents`] with the source of standard input passed in.
@@ -212,6 +267,7 @@ fn read_documents_from(
     inputs: &[PathBuf],
     options: &ReadOptions,
     diagnostics: &mut Vec<Diagnostic>,
+    warnings: &mut Vec<String>,
     sink: &mut dyn FnMut(RawDocument),
     open_stdin: &mut dyn FnMut() -> Box<dyn BufRead>,
 ) -> Result<ReadCounts, ReadError> {
@@ -228,6 +284,8 @@ fn read_documents_from(
         seen_ids: HashSet::new(),
         unique_ids: options.unique_ids,
         counts: ReadCounts::default(),
+        named_found: vec![false; options.named_fields.len()],
+        records_read: false,
     };
     for plan in plans {
         match plan {
@@ -255,6 +313,18 @@ fn read_documents_from(
                     None,
                     format!("cannot be opened: {error}; check its permissions"),
                 );
+            }
+        }
+    }
+    if collector.records_read {
+        for (field, found) in options.named_fields.iter().zip(&collector.named_found) {
+            if !found {
+                warnings.push(format!(
+                    "no record of any input has the {} field `{}`; {}",
+                    field.role.name(),
+                    field.name,
+                    field.role.without()
+                ));
             }
         }
     }
@@ -333,6 +403,22 @@ struct Collector<'a> {
     seen_ids: HashSet<String>,
     unique_ids: bool,
     counts: ReadCounts,
+    /// Per entry of `ReadOptions::named_fields`: whether some record had it.
+    named_found: Vec<bool>,
+    /// Whether any record-based input (JSON Lines, CSV) was read.
+    records_read: bool,
+}
+
+impl Collector<'_> {
+    /// Notes the fields a record (or a CSV header) has.
+    fn note_fields(&mut self, options: &ReadOptions, mut has: impl FnMut(&str) -> bool) {
+        self.records_read = true;
+        for (field, found) in options.named_fields.iter().zip(self.named_found.iter_mut()) {
+            if !*found && has(&field.name) {
+                *found = true;
+            }
+        }
+    }
 }
 
 impl Collector<'_> {
@@ -466,6 +552,7 @@ mod test_support {
         pub(super) result: Result<ReadCounts, ReadError>,
         pub(super) documents: Vec<RawDocument>,
         pub(super) diagnostics: Vec<Diagnostic>,
+        pub(super) warnings: Vec<String>,
     }
 
     impl Outcome {
@@ -500,10 +587,12 @@ mod test_support {
         let mut diagnostics = Vec::new();
         let stdin = stdin.to_vec();
         let mut open_stdin = move || -> Box<dyn BufRead> { Box::new(Cursor::new(stdin.clone())) };
+        let mut warnings = Vec::new();
         let result = read_documents_from(
             inputs,
             options,
             &mut diagnostics,
+            &mut warnings,
             &mut |document| documents.push(document),
             &mut open_stdin,
         );
@@ -511,6 +600,7 @@ mod test_support {
             result,
             documents,
             diagnostics,
+            warnings,
         }
     }
 
@@ -529,6 +619,8 @@ mod test_support {
             seen_ids: HashSet::new(),
             unique_ids: options.unique_ids,
             counts: ReadCounts::default(),
+            named_found: vec![false; options.named_fields.len()],
+            records_read: false,
         };
         let result = read_json_lines(Cursor::new(bytes), "mem.jsonl", options, &mut collector)
             .map(|()| collector.counts);
@@ -536,6 +628,7 @@ mod test_support {
             result,
             documents,
             diagnostics,
+            warnings: Vec::new(),
         }
     }
 
@@ -659,6 +752,62 @@ mod tests {
                 documents_emitted: 3
             }
         );
+    }
+
+    #[test]
+    pub(super) fn named_fields_no_record_has_are_warned_about_once() {
+        // Source: issue 11, item 7 — a label field that names a column no
+        // record has: one warning for the whole call, whatever the number
+        // of inputs; a text field no record of an input has: a failure
+        // naming the fields there are.
+        let folder = tempfile::tempdir().expect("temp dir");
+        let jsonl = write(
+            folder.path(),
+            "a.jsonl",
+            b"{\"id\": \"a\", \"text\": \"words\", \"when\": \"2024\"}\n",
+        );
+        let csv = write(folder.path(), "b.csv", b"id,text\nb,more words\n");
+        let options = ReadOptions {
+            label_field: "theme".into(),
+            date_field: "when".into(),
+            named_fields: vec![
+                NamedField {
+                    role: FieldRole::Label,
+                    name: "theme".into(),
+                },
+                NamedField {
+                    role: FieldRole::Date,
+                    name: "when".into(),
+                },
+            ],
+            ..ReadOptions::default()
+        };
+        let outcome = run(&[jsonl.clone(), csv], &options);
+        assert_eq!(outcome.ids(), ["a", "b"]);
+        assert_eq!(
+            outcome.warnings,
+            [
+                "no record of any input has the label field `theme`; no document has a label; check the field name"
+            ]
+        );
+        // Text files have no fields: nothing to warn about.
+        let text = write(folder.path(), "c.txt", b"plain words");
+        assert!(run(&[text], &options).warnings.is_empty());
+        let body = ReadOptions {
+            text_field: "body".into(),
+            ..ReadOptions::default()
+        };
+        match run(&[jsonl], &body).result {
+            Err(error @ ReadError::MissingTextField { .. }) => {
+                let message = error.to_string();
+                assert!(
+                    message
+                        .contains("no record has the text field `body` (fields seen: `id`, `text`, `when`)"),
+                    "{message}"
+                );
+            }
+            other => panic!("expected MissingTextField, got {other:?}"),
+        }
     }
 
     #[test]
