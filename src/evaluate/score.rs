@@ -490,7 +490,7 @@ pub fn coherence_report<D: AsRef<[u32]> + Sync>(
             topic: score.topic,
             top_words: top[score.topic]
                 .iter()
-                .map(|&w| model.corpus.vocabulary.word(w).to_string())
+                .map(|&w| model.corpus.vocabulary.display(w).to_string())
                 .collect(),
             umass: score.umass,
             npmi: score.npmi,

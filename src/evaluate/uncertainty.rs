@@ -41,7 +41,7 @@ pub enum UncertaintyError {
     /// A topic parameter `a_k` that is not positive or not below the total.
     #[error(
         "posterior sample {sample}: topic parameter {share} and total {total} do not describe a Beta \
-         marginal; pass a_k = alpha_k + n_dk > 0 and A = a0 + n_d > a_k"
+         marginal; pass a_k = alpha_k + n_dk > 0 and A = a0 + n_d > a_k (or A = a_k in every sample, one topic)"
     )]
     BadShare { sample: usize, share: f64, total: f64 },
     /// A mixture with no components.
@@ -381,7 +381,7 @@ pub fn beta_quantile(a: f64, b: f64, p: f64) -> Result<f64, UncertaintyError> {
 }
 
 fn check_share(sample: usize, share: f64, total: f64) -> Result<(), UncertaintyError> {
-    let fits = share.is_finite() && total.is_finite() && share > 0.0 && total > share;
+    let fits = share.is_finite() && total.is_finite() && share > 0.0 && total >= share;
     if fits {
         Ok(())
     } else {
@@ -394,7 +394,8 @@ fn check_share(sample: usize, share: f64, total: f64) -> Result<(), UncertaintyE
 /// `Beta(a_k, A - a_k)` with `a_k = alpha_k + n_dk` and `A = a0 + n_d`.
 ///
 /// `level` 0.9 gives the 5% and 95% quantiles. Domain: `a_k > 0`,
-/// `a_total > a_k`, `0 < level < 1`.
+/// `a_total >= a_k`, `0 < level < 1`; `a_total = a_k` (a model of one
+/// topic) is the certain share 1.
 pub fn share_interval(a_k: f64, a_total: f64, level: f64) -> Result<Interval, UncertaintyError> {
     mixture_share_interval(&[(a_k, a_total)], level)
 }
@@ -414,6 +415,18 @@ pub fn mixture_share_interval(components: &[(f64, f64)], level: f64) -> Result<I
     }
     for (sample, &(share, total)) in components.iter().enumerate() {
         check_share(sample, share, total)?;
+    }
+    // With one topic, the share is 1 in every sample: no Beta to invert.
+    if components.iter().all(|&(share, total)| share == total) {
+        return Ok(Interval {
+            mean: 1.0,
+            low: 1.0,
+            high: 1.0,
+        });
+    }
+    if let Some(sample) = components.iter().position(|&(share, total)| share == total) {
+        let (share, total) = components[sample];
+        return Err(UncertaintyError::BadShare { sample, share, total });
     }
     let mixture = BetaMixture::new(components.iter().map(|&(share, total)| (share, total - share)));
     Ok(mixture.interval(level))
@@ -830,12 +843,23 @@ mod tests {
             share_interval(2.0, 10.0, 1.0),
             Err(UncertaintyError::BadLevel { value: 1.0 })
         );
+        // Source: a Dirichlet of one category is the point mass at 1 (the
+        // share of the only topic is 1), so its interval is [1, 1]; a
+        // mixture where only some samples are so describes no model.
         assert_eq!(
             share_interval(10.0, 10.0, 0.9),
+            Ok(Interval {
+                mean: 1.0,
+                low: 1.0,
+                high: 1.0
+            })
+        );
+        assert_eq!(
+            mixture_share_interval(&[(2.0, 3.0), (3.0, 3.0)], 0.9),
             Err(UncertaintyError::BadShare {
-                sample: 0,
-                share: 10.0,
-                total: 10.0
+                sample: 1,
+                share: 3.0,
+                total: 3.0
             })
         );
         assert_eq!(

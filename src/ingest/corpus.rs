@@ -191,7 +191,13 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
         &mut |doc| {
             let start = tokens.len();
             vocab.start_document();
-            tokenizer.for_each_token(&doc.text, &mut |token| tokens.push(vocab.add_token(token)));
+            if tokenizer.stems() {
+                tokenizer.for_each_token_with_surface(&doc.text, &mut |token, surface| {
+                    tokens.push(vocab.add_token_with_surface(token, surface));
+                });
+            } else {
+                tokenizer.for_each_token(&doc.text, &mut |token| tokens.push(vocab.add_token(token)));
+            }
             if tokens.len() == start {
                 vocab.remove_document(&[]);
                 no_tokens.push(Diagnostic {

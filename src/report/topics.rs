@@ -91,7 +91,7 @@ pub fn topic_listings(
                     .map(|(w, weight)| {
                         let interval = model.topic_word_interval(topic_idx, w as usize, level)?;
                         Ok(WeightedWord {
-                            word: model.corpus.vocabulary.word(w).to_string(),
+                            word: model.corpus.vocabulary.display(w).to_string(),
                             weight,
                             low: interval.low,
                             high: interval.high,

@@ -1512,3 +1512,81 @@ fn help_and_messages_name_the_right_flags_and_fields() {
         .success()
         .stderr(predicate::str::contains("warning").not());
 }
+
+#[test]
+fn stemmed_topics_show_the_words_people_wrote() {
+    // Source: issue 11, item 8 — with --stem english the Snowball stems of
+    // "cattle", "committee" and "ordinances" are "cattl", "committe" and
+    // "ordin" (Porter 2 stemmer, snowballstem.org); listings show the most
+    // frequent word behind each stem, while the stem stays the key (a new
+    // document's "ordinance" still counts as the same word).
+    let scratch = Scratch::new();
+    let texts = [
+        "cattle grazing cattle farmers ordinances committee",
+        "committee ordinances council cattle committee",
+        "ordinances ordinance committee cattle grazing",
+    ];
+    for (idx, text) in texts.iter().cycle().take(9).enumerate() {
+        scratch.write(&format!("docs/{idx}.txt"), text);
+    }
+    themata(scratch.root())
+        .args([
+            "build",
+            "docs",
+            "--out",
+            "c.bin",
+            "--stem",
+            "english",
+            "--min-docs",
+            "1",
+        ])
+        .args(["--max-doc-share", "1", "--quiet"])
+        .assert()
+        .success();
+    themata(scratch.root())
+        .args([
+            "fit",
+            "c.bin",
+            "-k",
+            "1",
+            "--iterations",
+            "20",
+            "--out",
+            "m",
+            "--quiet",
+        ])
+        .assert()
+        .success();
+    let output = themata(scratch.root())
+        .args(["show", "m", "--format", "tsv", "--words", "all"])
+        .output()
+        .unwrap();
+    let text = String::from_utf8(output.stdout).unwrap();
+    let words: Vec<&str> = text
+        .lines()
+        .skip(1)
+        .map(|l| l.split('\t').nth(2).unwrap())
+        .collect();
+    for shown in ["cattle", "committee", "ordinances", "grazing"] {
+        assert!(words.contains(&shown), "{shown} missing from {words:?}");
+    }
+    for stem in ["cattl", "committe", "ordin"] {
+        assert!(!words.contains(&stem), "{stem} shown in {words:?}");
+    }
+    scratch.write("new.jsonl", "{\"id\":\"n\",\"text\":\"ordinance cattle\"}\n");
+    themata(scratch.root())
+        .args(["assign", "m", "new.jsonl"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("2 tokens known, 0 tokens unknown"));
+    // Source: a model of one topic gives every document the share 1 with
+    // certainty (the Dirichlet of one category is the point mass at 1); its
+    // listings used to fail on the degenerate interval.
+    let output = themata(scratch.root())
+        .args(["show", "m", "--documents", "--format", "tsv"])
+        .output()
+        .unwrap();
+    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    let text = String::from_utf8(output.stdout).unwrap();
+    assert!(text.lines().skip(1).all(|l| l.ends_with("\t0\t1\t1\t1")), "{text}");
+}
