@@ -1293,7 +1293,7 @@ fn build_says_why_when_every_document_is_skipped() {
             "4 read, 0 kept, 4 skipped: empty 1, no_tokens 3; 0 of 9 tokens kept; vocabulary 0 of 9 words seen, dropped: 9 too rare, 0 too common",
         ))
         .stderr(predicate::str::contains("skipped: docs/blank.txt"))
-        .stderr(predicate::str::contains("`1.txt` has no words left after vocabulary pruning"));
+        .stderr(predicate::str::contains("`docs/1.txt` has no words left after vocabulary pruning"));
     assert!(!scratch.path("c.bin").exists());
 }
 
@@ -1586,7 +1586,44 @@ fn stemmed_topics_show_the_words_people_wrote() {
         .args(["show", "m", "--documents", "--format", "tsv"])
         .output()
         .unwrap();
-    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
     let text = String::from_utf8(output.stdout).unwrap();
-    assert!(text.lines().skip(1).all(|l| l.ends_with("\t0\t1\t1\t1")), "{text}");
+    assert!(
+        text.lines().skip(1).all(|l| l.ends_with("\t0\t1\t1\t1")),
+        "{text}"
+    );
+}
+
+#[test]
+fn a_file_has_the_same_id_whether_its_folder_or_itself_is_given() {
+    // Source: issue 11, item 9 — document ids from a folder must not depend
+    // on whether the folder or a file in it was passed.
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let first_id = |input: &str| -> String {
+        let output = themata(scratch.root())
+            .args(["assign", "model", input, "--top", "1", "--quiet"])
+            .output()
+            .unwrap();
+        assert!(
+            output.status.success(),
+            "{}",
+            String::from_utf8_lossy(&output.stderr)
+        );
+        let text = String::from_utf8(output.stdout).unwrap();
+        text.lines()
+            .nth(1)
+            .unwrap()
+            .split('\t')
+            .next()
+            .unwrap()
+            .to_string()
+    };
+    assert_eq!(first_id("docs"), "docs/item-00.txt");
+    assert_eq!(first_id("docs/item-00.txt"), "docs/item-00.txt");
+    assert_eq!(first_id("./docs/"), "docs/item-00.txt");
 }

@@ -11,9 +11,11 @@
 //! - Folders are walked depth first, entries of each folder in byte order of
 //!   their names; names starting with `.` are skipped. Linked folders are
 //!   followed, except a link back into a folder being walked.
-//! - Ids: a text file in a folder is named by its path below that folder with
-//!   `/` separators; a text file given directly by the path as given; a record
-//!   by its id field or column, or `file:line` when that is missing or empty.
+//! - Ids: a text file is named by its path as given (for a file found in a
+//!   folder, the folder's path as given and then the path below it), `.`
+//!   parts dropped and `/` between parts, so a file has the same id whether
+//!   its folder or the file itself was passed; a record by its id field or
+//!   column, or `file:line` when that is missing or empty.
 //! - A document whose text is empty or only whitespace is skipped, and so is
 //!   a document whose id was already handed out earlier in the same call
 //!   (unless `unique_ids` is off, as for `assign`).
@@ -33,7 +35,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use csv_table::read_csv;
-use folder::{FolderWalk, offer_text};
+use folder::{FolderWalk, offer_text, path_id};
 use json_lines::read_json_lines;
 pub use origin::{Diagnostic, DiagnosticKind, Origin};
 
@@ -293,13 +295,14 @@ fn read_documents_from(
             InputPlan::Folder(folder) => {
                 let mut walk = FolderWalk {
                     options,
+                    root_id: path_id(folder),
                     relative: Vec::new(),
                     ancestors: Vec::new(),
                 };
                 walk.walk(folder, &mut collector)?;
             }
             InputPlan::File(path, kind) => {
-                let id = path.to_string_lossy().into_owned();
+                let id = path_id(path);
                 read_file(path, kind, id, options, &mut collector)?;
             }
             InputPlan::Unopenable(path, error) => {
@@ -563,6 +566,22 @@ mod test_support {
                 .collect()
         }
 
+        /// The ids with the id of the folder `root` and its `/` taken off
+        /// the front (ids of files found in a folder start with it).
+        pub(super) fn ids_below(&self, root: &Path) -> Vec<String> {
+            let prefix = format!("{}/", path_id(root));
+            self.documents
+                .iter()
+                .map(|document| {
+                    document
+                        .id
+                        .strip_prefix(&prefix)
+                        .unwrap_or(&document.id)
+                        .to_string()
+                })
+                .collect()
+        }
+
         pub(super) fn kinds(&self) -> Vec<DiagnosticKind> {
             self.diagnostics
                 .iter()
@@ -818,14 +837,18 @@ mod tests {
         write(folder.path(), "d.txt", "\u{3000}\u{00A0}\u{2028}".as_bytes());
         write(folder.path(), "e.txt", b"real words");
         let outcome = run(&[folder.path().to_path_buf()], &ReadOptions::default());
+        let root = path_id(folder.path());
         // Source: Unicode PropList.txt White_Space (U+3000, U+00A0 and U+2028 are white space).
-        assert_eq!(outcome.ids(), ["e.txt"]);
+        assert_eq!(outcome.ids_below(folder.path()), ["e.txt"]);
         assert_eq!(outcome.kinds(), vec![DiagnosticKind::Empty; 3]);
-        assert_eq!(outcome.diagnostics[0].message, "document `a/b.txt` is empty");
-        assert_eq!(outcome.diagnostics[0].document.as_deref(), Some("a/b.txt"));
+        assert_eq!(
+            outcome.diagnostics[0].message,
+            format!("document `{root}/a/b.txt` is empty")
+        );
+        assert_eq!(outcome.diagnostics[0].document, Some(format!("{root}/a/b.txt")));
         assert_eq!(
             outcome.diagnostics[1].message,
-            "document `c.txt` holds only whitespace"
+            format!("document `{root}/c.txt` holds only whitespace")
         );
         assert_eq!(
             outcome.counts(),
