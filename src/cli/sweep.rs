@@ -1,5 +1,6 @@
 //! `themata sweep`: fit several numbers of topics and recommend one.
 
+use std::io::IsTerminal;
 use std::path::PathBuf;
 use themata::model::corpus_file::load_corpus;
 
@@ -87,8 +88,18 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
         count(settings.seeds.len(), "seed"),
         count(plan.threads, "thread")
     );
+    // One line per finished fit, on a terminal only (logs get the table).
+    let on_terminal = std::io::stderr().is_terminal();
+    let report_fit = |done: k_search::FitDone| {
+        if on_terminal {
+            eprintln!(
+                "themata: fit {} of {} done: K = {}, seed {}, held-out perplexity {:.1}",
+                done.done, done.total, done.topics, done.seed, done.heldout_perplexity
+            );
+        }
+    };
     let report = pool
-        .install(|| k_search::run_k_search(&corpus, &settings))
+        .install(|| k_search::run_k_search(&corpus, &settings, &report_fit))
         .map_err(|err| match err {
             k_search::KSearchError::Scoring { .. } => Failure::system(err),
             _ => Failure::bad_input(err),
@@ -132,5 +143,14 @@ pub fn run(args: SweepArgs) -> Result<(), Failure> {
         report.rule,
         args.out.display()
     )?;
+    match report.recommended_at_edge {
+        Some(k_search::RangeEdge::Largest) => eprintln!(
+            "themata: warning: the recommended K is the largest candidate; the best K may be larger: sweep larger values too"
+        ),
+        Some(k_search::RangeEdge::Smallest) => eprintln!(
+            "themata: warning: the recommended K is the smallest candidate; fewer topics may do as well: sweep smaller values too"
+        ),
+        None => {}
+    }
     Ok(())
 }

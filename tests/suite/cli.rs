@@ -1627,3 +1627,38 @@ fn a_file_has_the_same_id_whether_its_folder_or_itself_is_given() {
     assert_eq!(first_id("docs/item-00.txt"), "docs/item-00.txt");
     assert_eq!(first_id("./docs/"), "docs/item-00.txt");
 }
+
+#[test]
+fn sweep_says_when_the_best_k_may_lie_outside_the_candidates() {
+    // Source: issue 11, item 10 — with two candidates the recommendation is
+    // always one end of the range, so the warning must appear, and the
+    // summary records which end.
+    let scratch = Scratch::new();
+    build_corpus(&scratch);
+    let output = themata(scratch.root())
+        .args([
+            "sweep",
+            "corpus.bin",
+            "--topics",
+            "2,3",
+            "--seeds",
+            "1",
+            "--iterations",
+            "30",
+        ])
+        .args(["--holdout", "0.25", "--out", "sweep"])
+        .output()
+        .unwrap();
+    assert!(output.status.success());
+    let stderr = String::from_utf8(output.stderr).unwrap();
+    let report = read_json(&scratch.path("sweep/summary.json"));
+    let edge = report["recommended_at_edge"].as_str().unwrap();
+    let expected = if edge == "largest" {
+        "the recommended K is the largest candidate; the best K may be larger"
+    } else {
+        "the recommended K is the smallest candidate; fewer topics may do as well"
+    };
+    assert!(stderr.contains(expected), "{edge}: {stderr}");
+    let recommended = report["recommended_topics"].as_u64().unwrap();
+    assert_eq!(recommended, if edge == "largest" { 3 } else { 2 });
+}
