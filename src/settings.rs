@@ -523,6 +523,13 @@ pub struct FitOptions {
         help = help("Shards for parallel sweeps: documents and words are each cut into N parts, giving N x N blocks; fixed per model, so the thread count never changes the result", default_shards_help())
     )]
     pub shards: Option<usize>,
+    #[arg(
+        long,
+        value_name = "N",
+        value_parser = AT_LEAST_ONE.parser::<u64>(),
+        help = help("Write a checkpoint (OUT.checkpoint beside the output folder) every N sweeps; a run interrupted part way then finishes from it when started again with the same inputs and settings (`fit --resume OUT`, or `run` again), to the same bytes", "no checkpoints")
+    )]
+    pub checkpoint_every: Option<u64>,
 }
 overlay!(FitOptions {
     topics,
@@ -538,7 +545,8 @@ overlay!(FitOptions {
     trace_every,
     holdout,
     sampler,
-    shards
+    shards,
+    checkpoint_every
 });
 
 /// The worker threads asked for, or every core when none is given.
@@ -557,6 +565,8 @@ pub struct FitPlan {
     pub settings: FitSettings,
     pub threads: usize,
     pub holdout: f64,
+    /// Write a checkpoint every this many sweeps (never stored in the model).
+    pub checkpoint_every: Option<u64>,
 }
 
 impl FitOptions {
@@ -584,10 +594,14 @@ impl FitOptions {
         check_fit_settings(&settings)?;
         let holdout = self.holdout.unwrap_or(DEFAULT_HOLDOUT);
         ShareRange::BELOW_ONE.check("holdout", holdout)?;
+        if let Some(every) = self.checkpoint_every {
+            AT_LEAST_ONE.check("checkpoint_every", every)?;
+        }
         Ok(FitPlan {
             holdout,
             settings,
             threads: resolve_threads(self.threads)?,
+            checkpoint_every: self.checkpoint_every,
         })
     }
 }

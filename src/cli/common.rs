@@ -190,20 +190,64 @@ pub fn score_holdout(model: &Model, held: &Corpus, threads: usize) -> Result<sco
 }
 
 /// Fits a fresh model with a progress bar on a worker pool (used by `run`),
-/// scoring the `--holdout` documents when asked.
+/// scoring the `--holdout` documents when asked. With `plan.checkpoint_every`
+/// it writes checkpoints to `checkpoint`, and when one is already there from
+/// an interrupted run of the same corpus and settings, it finishes that run
+/// from it (to the bytes an uninterrupted run gives).
 pub fn fit_model(
     corpus: Corpus,
     plan: &FitPlan,
+    checkpoint: &Path,
     quiet: bool,
 ) -> Result<(Model, FitTiming, Option<score::HeldOutScore>), Failure> {
     let (train, held) = split_for_holdout(corpus, plan)?;
     let mut model = fit::start(train, &plan.settings)?;
-    let timing = sample(&mut model, plan.threads, None, quiet)?;
+    let checkpointing = plan
+        .checkpoint_every
+        .map(|every| (every, checkpoint.to_path_buf()));
+    if checkpointing.is_some() && checkpoint.is_file() {
+        match Model::load(checkpoint) {
+            Ok(saved) if same_run(&saved, &model) => {
+                if !quiet {
+                    eprintln!(
+                        "themata: resuming from {} (sweep {} of {})",
+                        checkpoint.display(),
+                        saved.iterations_done,
+                        saved.target
+                    );
+                }
+                model = saved;
+            }
+            Ok(_) => eprintln!(
+                "themata: warning: {} was written by a run of other inputs or settings; starting afresh (it will be replaced)",
+                checkpoint.display()
+            ),
+            Err(err) => eprintln!(
+                "themata: warning: cannot resume from {}: {err}; starting afresh (it will be replaced)",
+                checkpoint.display()
+            ),
+        }
+    }
+    let timing = sample(&mut model, plan.threads, checkpointing, quiet)?;
     let heldout = match &held {
         Some(held) => Some(score_holdout(&model, held, plan.threads)?),
         None => None,
     };
     Ok((model, timing, heldout))
+}
+
+/// Whether `saved` is a checkpoint of the run that starts as `fresh`: the
+/// same corpus, seed, topics, schedule, target and fixed priors, not yet
+/// finished.
+fn same_run(saved: &Model, fresh: &Model) -> bool {
+    saved.corpus == fresh.corpus
+        && saved.seed == fresh.seed
+        && saved.n_topics() == fresh.n_topics()
+        && saved.schedule == fresh.schedule
+        && saved.target == fresh.target
+        && saved.iterations_done < saved.target
+        && (saved.schedule.learn_alpha || saved.priors.alpha == fresh.priors.alpha)
+        && (saved.schedule.learn_beta || saved.priors.beta == fresh.priors.beta)
 }
 
 /// What was fitted, and a warning when the trace has not levelled off.

@@ -83,7 +83,10 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     };
     // Refuse an unusable output folder before sampling, not after.
     drop(StagedFolder::begin(&out)?);
-    let checkpoint = args.checkpoint_every.map(|every| (every, checkpoint_path(&out)));
+    let checkpoint = args
+        .fit
+        .checkpoint_every
+        .map(|every| (every, checkpoint_path(&out)));
     let timing = sample(&mut model, threads, checkpoint, args.quiet)?;
     let mut summary = FitSummary::new(
         &model,
@@ -107,6 +110,7 @@ fn refuse_changed_settings(options: &FitOptions) -> Result<(), Failure> {
     let fixed = FitOptions {
         iterations: None,
         threads: None,
+        checkpoint_every: None,
         ..options.clone()
     };
     if options.holdout.is_some() {
@@ -116,7 +120,7 @@ fn refuse_changed_settings(options: &FitOptions) -> Result<(), Failure> {
     }
     if fixed != FitOptions::default() {
         return Err(Failure::bad_input(anyhow::anyhow!(
-            "a continued or resumed fit keeps the model's topics, priors, seed and schedule; only --iterations (with --continue) and --threads may be given"
+            "a continued or resumed fit keeps the model's topics, priors, seed and schedule; only --iterations (with --continue), --threads and --checkpoint-every may be given"
         )));
     }
     Ok(())

@@ -224,9 +224,6 @@ pub struct FitArgs {
     /// Finish a run that was interrupted, from the checkpoint beside DIR
     #[arg(long, value_name = "DIR", conflicts_with_all = ["corpus", "out"])]
     pub resume: Option<PathBuf>,
-    /// Write a checkpoint (DIR.checkpoint beside the output folder) every N sweeps
-    #[arg(long, value_name = "N", value_parser = themata::settings::AT_LEAST_ONE.parser::<u64>())]
-    pub checkpoint_every: Option<u64>,
     #[command(flatten, next_help_heading = "Fitting")]
     pub fit: FitOptions,
     /// No progress bar and no summary line

@@ -1,9 +1,8 @@
 //! `themata run`: build, fit and report as a config file describes, into one
 //! output folder that is replaced whole only when everything succeeded.
 
-use themata::evaluate::compare::label_agreement;
 use themata::evaluate::uncertainty::DEFAULT_LEVEL;
-use themata::model::folder::stage_model;
+use themata::model::folder::{checkpoint_path, remove_checkpoint, stage_model};
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
 use themata::report::{self, DocumentLayout, DocumentView, ListingFormat, WordLimit};
@@ -46,7 +45,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     let (corpus, build_summary) = build_corpus(&inputs, &input, &tokenizer, &vocabulary, args.quiet)?;
     let corpus_bytes = themata::model::corpus_file::encode_corpus(&corpus, &staged.path("corpus.bin"))?;
     staged.write("corpus.bin", &corpus_bytes)?;
-    let (model, timing, heldout) = fit_model(corpus, &plan, args.quiet)?;
+    let (model, timing, heldout) = fit_model(corpus, &plan, &checkpoint_path(&out_dir), args.quiet)?;
     let mut summary = FitSummary::new(
         &model,
         plan.threads,
@@ -79,12 +78,13 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     staged.write("build.json", &build_json)?;
     stage_model(&staged, &model, &summary)?;
     staged.commit()?;
+    remove_checkpoint(&out_dir)?;
 
     let mut table = Vec::new();
     report::write_topics(&mut table, &topics, ListingFormat::Table, listing.numbers)
         .map_err(Failure::system)?;
     say_raw!("{}", String::from_utf8_lossy(&table))?;
-    if let Some(agreement) = label_agreement(&model) {
+    if let Some(agreement) = &summary.label_agreement {
         say!(
             "label agreement: normalised mutual information {:.3} between each document's top topic and its label ({} labelled documents, {} labels)",
             agreement.nmi,

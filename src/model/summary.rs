@@ -6,6 +6,7 @@
 use serde::Serialize;
 
 use super::Model;
+use crate::evaluate::compare::{LabelAgreement, label_agreement};
 use crate::evaluate::score::HeldOutScore;
 use crate::fitting::fit::{self, Convergence};
 use crate::fitting::sampler::BetaPrior;
@@ -47,6 +48,9 @@ pub struct FitSummary {
     /// Peak resident memory of the process that fitted the model, in bytes
     /// (null where the system does not tell).
     pub peak_rss_bytes: Option<u64>,
+    /// How well the training documents' top topics agree with their labels
+    /// (normalised mutual information; null when no document has a label).
+    pub label_agreement: Option<LabelAgreement>,
 }
 
 /// Version of the summary.json layout.
@@ -95,6 +99,7 @@ impl FitSummary {
             heldout_perplexity: None,
             heldout: None,
             peak_rss_bytes: None,
+            label_agreement: label_agreement(model),
         }
     }
 

@@ -1662,3 +1662,137 @@ fn sweep_says_when_the_best_k_may_lie_outside_the_candidates() {
     let recommended = report["recommended_topics"].as_u64().unwrap();
     assert_eq!(recommended, if edge == "largest" { 3 } else { 2 });
 }
+
+/// The bars corpus as JSON Lines text, with a label per document.
+fn bars_as_json_lines(scratch: &Scratch, documents: usize) {
+    let data = themata::testbed::synthetic::bars(documents, 60, 1.0, 9);
+    let corpus = &data.corpus;
+    let mut text = String::new();
+    for doc_idx in 0..corpus.n_docs() {
+        let words: Vec<&str> = corpus
+            .doc_tokens(doc_idx)
+            .iter()
+            .map(|&word| corpus.vocabulary.word(word))
+            .collect();
+        text.push_str(
+            &serde_json::json!({
+                "id": format!("d{doc_idx}"),
+                "text": words.join(" "),
+                "label": format!("group-{}", doc_idx % 4),
+            })
+            .to_string(),
+        );
+        text.push('\n');
+    }
+    scratch.write("bars.jsonl", text);
+    scratch.write(
+        "bars.toml",
+        "[input]\npaths = [\"bars.jsonl\"]\n[tokenizer]\nstopwords = \"none\"\nmin_length = 1\n\
+         [vocabulary]\nmin_docs = 1\nmax_doc_share = 1\n\
+         [fit]\ntopics = 10\niterations = 1500\nburn_in = 200\nsamples = 3\nlag = 7\nseed = 12\nthreads = 1\ncheckpoint_every = 25\n\
+         [output]\ndir = \"whole\"\n",
+    );
+}
+
+#[test]
+fn an_interrupted_run_finishes_from_its_checkpoint() {
+    // Source: issue 11, item 11 — `run` gets the checkpoint key; a checkpoint
+    // holds the complete sampler state, so running the same config again
+    // after a crash finishes to the bytes of an uninterrupted run (as `fit
+    // --resume` does), and a checkpoint of other settings is not used.
+    let scratch = Scratch::new();
+    bars_as_json_lines(&scratch, 1500);
+    themata(scratch.root())
+        .args(["run", "bars.toml", "--quiet"])
+        .assert()
+        .success();
+    assert!(!scratch.path("whole.checkpoint").exists());
+    let start_killed = || {
+        let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("themata"))
+            .current_dir(scratch.root())
+            .args(["run", "bars.toml", "--quiet", "--out", "killed"])
+            .stdout(std::process::Stdio::null())
+            .stderr(std::process::Stdio::null())
+            .spawn()
+            .unwrap();
+        let checkpoint = scratch.path("killed.checkpoint");
+        let deadline = std::time::Instant::now() + std::time::Duration::from_secs(120);
+        while !checkpoint.exists() {
+            assert!(std::time::Instant::now() < deadline, "no checkpoint appeared");
+            std::thread::sleep(std::time::Duration::from_millis(5));
+        }
+        std::thread::sleep(std::time::Duration::from_millis(150));
+        child.kill().unwrap();
+        child.wait().unwrap();
+        // A finished run removes its checkpoint.
+        assert!(
+            checkpoint.exists(),
+            "the run finished before it was killed; make it longer"
+        );
+    };
+    start_killed();
+    // Other settings: the checkpoint is not theirs.
+    themata(scratch.root())
+        .args([
+            "run",
+            "bars.toml",
+            "--out",
+            "killed",
+            "--seed",
+            "13",
+            "--iterations",
+            "30",
+            "--burn-in",
+            "5",
+        ])
+        .args(["--checkpoint-every", "1000"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains(
+            "was written by a run of other inputs or settings",
+        ));
+    start_killed();
+    themata(scratch.root())
+        .args(["run", "bars.toml", "--out", "killed"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("resuming from"));
+    assert!(!scratch.path("killed.checkpoint").exists());
+    assert!(
+        std::fs::read(scratch.path("whole/model.bin")).unwrap()
+            == std::fs::read(scratch.path("killed/model.bin")).unwrap(),
+        "the resumed run's model differs from the uninterrupted one"
+    );
+    // Source: issue 11, item 11 — the label agreement run prints is saved in
+    // summary.json (NMI is between 0 and 1, Strehl & Ghosh 2002).
+    let summary = read_json(&scratch.path("whole/summary.json"));
+    let agreement = &summary["label_agreement"];
+    assert_eq!(agreement["documents"], 1500);
+    assert_eq!(agreement["labels"], 4);
+    let nmi = agreement["nmi"].as_f64().unwrap();
+    assert!((0.0..=1.0).contains(&nmi), "{agreement}");
+}
+
+#[test]
+fn tabs_and_line_breaks_in_file_names_stay_inside_their_tsv_field() {
+    // Source: IANA media type text/tab-separated-values (a field holds no
+    // tab or line break); issue 11, item 11: such names are escaped as
+    // PostgreSQL's text format does (\t, \n, \r, \\).
+    let scratch = Scratch::new();
+    run_config(&scratch, "");
+    scratch.write(
+        "docs/odd\tname\nhere.txt",
+        "tide quay harbour boat nets trawler catch",
+    );
+    themata(scratch.root())
+        .args(["run", "run.toml", "--quiet"])
+        .assert()
+        .success();
+    for (file, columns) in [("out/documents.tsv", 5), ("out/documents-wide.tsv", 14)] {
+        let text = std::fs::read_to_string(scratch.path(file)).unwrap();
+        assert!(text.contains("docs/odd\\tname\\nhere.txt\t"), "{text}");
+        for line in text.lines() {
+            assert_eq!(line.split('\t').count(), columns, "{file}: {line}");
+        }
+    }
+}
