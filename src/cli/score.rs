@@ -19,8 +19,30 @@ use themata::settings::{ANY_WHOLE, AT_LEAST_ONE, PrecisionOptions, WholeRange};
 use super::{Failure, RecordOptions};
 use themata::model::folder::load_model;
 
+/// What the columns of the per-topic table mean (shown by `score --help`;
+/// the README repeats it).
+const TABLE_COLUMNS: &str = "\
+Columns of the per-topic table (JSON: coherence.per_topic, names in full):
+  umass       UMass coherence (Mimno et al. 2011): over pairs of top words, the sum of
+              ln((documents with both + 1) / documents with the higher-ranked one);
+              0 or below, closer to 0 is more coherent
+  npmi        mean normalised pointwise mutual information of pairs of top words in
+              sliding windows (--npmi-window): -1 never together, 0 independent,
+              1 always together
+  cv          C_V coherence (Roeder et al. 2015) in windows of --cv-window tokens:
+              mean cosine of NPMI context vectors, -1 to 1, higher is more coherent
+  share       token_share: the topic's share of all tokens
+  prevalence  document_prevalence: the share of documents whose largest topic it is
+  eff.words   effective_words: exp of the entropy of the topic's word distribution,
+              the number of equally likely words as spread out (n if even over n)
+  distinct    distinctiveness: Kullback-Leibler divergence of the topic's words from
+              the corpus word frequencies, in nats (0: it only repeats them)
+  exclusiv    exclusivity: mean over the top words of the word's weight in this topic
+              over its weight summed across topics (1: no other topic uses them)";
+
 /// Arguments of `themata score`.
 #[derive(clap::Args, Debug)]
+#[command(after_help = TABLE_COLUMNS)]
 pub struct ScoreArgs {
     /// Model folder written by `themata fit` or `themata run`
     #[arg(value_name = "DIR")]

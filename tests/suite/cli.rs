@@ -1796,3 +1796,38 @@ fn tabs_and_line_breaks_in_file_names_stay_inside_their_tsv_field() {
         }
     }
 }
+
+#[test]
+fn score_help_explains_every_column_of_its_table() {
+    // Source: issue 11, item 12 — the columns of score's per-topic table are
+    // explained in --help (and the README).
+    let scratch = Scratch::new();
+    fit_model(&scratch);
+    let table = themata(scratch.root()).args(["score", "model"]).output().unwrap();
+    let table = String::from_utf8(table.stdout).unwrap();
+    let header = table
+        .lines()
+        .find(|l| l.trim_start().starts_with("topic"))
+        .unwrap();
+    let help = themata(scratch.root())
+        .args(["score", "--help"])
+        .output()
+        .unwrap();
+    let help = String::from_utf8(help.stdout).unwrap();
+    let readme =
+        std::fs::read_to_string(std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("README.md")).unwrap();
+    for column in header
+        .split_whitespace()
+        .filter(|c| !["topic", "top", "words"].contains(c))
+    {
+        assert!(
+            help.lines()
+                .any(|l| l.trim_start().starts_with(&format!("{column} "))),
+            "`{column}` is not explained in score --help:\n{help}"
+        );
+        assert!(
+            readme.contains(&format!("| `{column}`")),
+            "`{column}` is not in the README table"
+        );
+    }
+}
