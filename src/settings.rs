@@ -262,6 +262,13 @@ pub struct InputOptions {
         help = help("Fail (exit 2) if any document is skipped, instead of reporting it", false)
     )]
     pub strict: Option<bool>,
+    #[arg(
+        long,
+        value_name = "N",
+        value_parser = AT_LEAST_ONE.parser::<usize>(),
+        help = help("Cut documents longer than N tokens into chunks of N tokens (the last one shorter), each a document of its own, named ID#1, ID#2, ...; listings can sum them back (--merge-chunks)", "documents are kept whole")
+    )]
+    pub split_every: Option<usize>,
 }
 overlay!(InputOptions {
     paths,
@@ -270,7 +277,8 @@ overlay!(InputOptions {
     id_field,
     label_field,
     date_field,
-    strict
+    strict,
+    split_every
 });
 
 impl InputOptions {
@@ -310,6 +318,14 @@ impl InputOptions {
     /// Whether skipped documents are a failure.
     pub fn is_strict(&self) -> bool {
         self.strict.unwrap_or(false)
+    }
+
+    /// The chunk length of `split_every`, checked.
+    pub fn split_every(&self) -> Result<Option<usize>, SettingsError> {
+        if let Some(every) = self.split_every {
+            AT_LEAST_ONE.check("split_every", every as u64)?;
+        }
+        Ok(self.split_every)
     }
 }
 
@@ -763,6 +779,14 @@ pub struct ListingOptions {
         help = help("Document rows: `long` (one row per document and topic) or `wide` (one row per document: its largest topics side by side); `run` writes both files", "long")
     )]
     pub layout: Option<DocumentLayout>,
+    #[arg(
+        long,
+        num_args = 0..=1,
+        default_missing_value = "true",
+        value_name = "BOOL",
+        help = help("List each document cut by --split-every once, its chunks' topic counts summed back (shares and intervals of the whole document)", false)
+    )]
+    pub merge_chunks: Option<bool>,
 }
 impl ListingOptions {
     /// Returns these settings with every value set in `over` replacing
@@ -782,6 +806,7 @@ impl ListingOptions {
             top,
             all_topics,
             layout: over.layout.or(self.layout),
+            merge_chunks: over.merge_chunks.or(self.merge_chunks),
         }
     }
 
@@ -818,6 +843,7 @@ impl ListingOptions {
             numbers: Numbers::with_precision(precision),
             selection,
             layout: self.layout.unwrap_or_default(),
+            merge_chunks: self.merge_chunks.unwrap_or(false),
         })
     }
 }
@@ -996,6 +1022,7 @@ impl RunConfig {
             other => other,
         };
         self.input.resolve().map_err(|err| at("input", err))?;
+        self.input.split_every().map_err(|err| at("input", err))?;
         let no_lists = TokenizerOptions {
             stopwords: Some(vec!["none".into()]),
             ..self.tokenizer.clone()

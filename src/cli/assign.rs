@@ -63,6 +63,11 @@ pub struct AssignArgs {
 /// Runs `themata assign`.
 pub fn run(args: AssignArgs) -> Result<(), Failure> {
     let plan: ListingPlan = args.listing.resolve()?;
+    if plan.merge_chunks {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--merge-chunks sums back the chunks --split-every cut at build time; assign places each new document whole, so there is nothing to merge"
+        )));
+    }
     let threads = resolve_threads(args.threads)?;
     let model = load_model(&args.dir)?;
     let tokenizer = Tokenizer::new(&model.corpus.tokenizer).map_err(Failure::bad_input)?;

@@ -33,6 +33,7 @@ pub fn build_corpus(
         read: input.resolve()?,
         tokenizer: tokenizer.resolve()?,
         prune: vocabulary.resolve()?,
+        split_every: input.split_every()?,
     };
     let (corpus, summary) = match corpus::build(inputs, &settings) {
         Ok(built) => built,
@@ -81,8 +82,13 @@ fn print_summary(summary: &BuildSummary) -> Result<(), Failure> {
     } else {
         format!(" ({})", summary.skipped_reasons())
     };
+    let split = if summary.documents_split > 0 {
+        format!(" ({} cut into chunks)", summary.documents_split)
+    } else {
+        String::new()
+    };
     say!(
-        "documents: {} read, {} kept, {} skipped{}",
+        "documents: {} read{split}, {} kept, {} skipped{}",
         summary.documents_read,
         summary.documents_kept,
         skipped,

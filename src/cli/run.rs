@@ -63,7 +63,8 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv, listing.numbers)
         .map_err(Failure::system)?;
     staged.write("topics.tsv", &topics_tsv)?;
-    let rows = report::document_rows(&model, listing.selection, DEFAULT_LEVEL).map_err(Failure::system)?;
+    let rows = report::document_rows(&model, listing.selection, DEFAULT_LEVEL, listing.merge_chunks)
+        .map_err(Failure::system)?;
     let view = DocumentView::of(&listing, model.n_topics());
     for (name, layout) in [
         (DOCUMENTS_FILE, DocumentLayout::Long),

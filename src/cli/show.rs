@@ -41,8 +41,8 @@ pub fn run(args: ShowArgs) -> Result<(), Failure> {
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     let written = if args.documents {
-        let rows =
-            report::document_rows(&model, plan.selection, args.interval).map_err(Failure::bad_input)?;
+        let rows = report::document_rows(&model, plan.selection, args.interval, plan.merge_chunks)
+            .map_err(Failure::bad_input)?;
         let view = DocumentView::of(&plan, model.n_topics());
         report::write_documents(&mut out, &rows, args.format, &view)
     } else {

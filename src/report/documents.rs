@@ -8,6 +8,7 @@
 //! more than the shares.
 
 use std::io::{self, Write};
+use std::ops::Range;
 
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
@@ -16,6 +17,7 @@ use super::ListingFormat;
 use super::numbers::{Numbers, tsv_field};
 use crate::evaluate::score::{Placement, ScoreError};
 use crate::evaluate::uncertainty::UncertaintyError;
+use crate::ingest::corpus::chunk_groups;
 use crate::model::Model;
 
 /// A topic is listed when its share is at least this, by default.
@@ -84,6 +86,8 @@ pub struct ListingPlan {
     pub numbers: Numbers,
     pub selection: TopicSelection,
     pub layout: DocumentLayout,
+    /// List a document cut into chunks once, its chunks summed back.
+    pub merge_chunks: bool,
 }
 
 /// One listed topic of a document: its share and credible interval.
@@ -113,18 +117,32 @@ pub struct DocumentRow {
 }
 
 /// Every training document's listed topics with credible intervals at
-/// `level`, computed only for the listed topics. Rows are computed in
-/// parallel and kept in document order.
+/// `level`, computed only for the listed topics. With `merge_chunks`, a
+/// document cut into chunks at build time is one row: its chunks' topic
+/// counts summed, as if it had been one document (`Model::
+/// documents_topic_shares`). Rows are computed in parallel and kept in
+/// document order.
 pub fn document_rows(
     model: &Model,
     selection: TopicSelection,
     level: f64,
+    merge_chunks: bool,
 ) -> Result<Vec<DocumentRow>, UncertaintyError> {
-    (0..model.corpus.n_docs())
+    let groups: Vec<(String, Range<usize>)> = if merge_chunks {
+        chunk_groups(&model.corpus)
+    } else {
+        model
+            .corpus
+            .documents
+            .iter()
+            .enumerate()
+            .map(|(doc_idx, info)| (info.id.clone(), doc_idx..doc_idx + 1))
+            .collect()
+    };
+    groups
         .into_par_iter()
-        .map(|doc_idx| {
-            let info = &model.corpus.documents[doc_idx];
-            let docs = doc_idx..doc_idx + 1;
+        .map(|(document, docs)| {
+            let info = &model.corpus.documents[docs.start];
             let shares = model.documents_topic_shares(docs.clone());
             let topics = selection
                 .pick(&shares)
@@ -140,9 +158,9 @@ pub fn document_rows(
                 })
                 .collect::<Result<_, UncertaintyError>>()?;
             Ok(DocumentRow {
-                document: info.id.clone(),
+                document,
                 label: info.label.clone(),
-                tokens: model.doc_len(doc_idx) as usize,
+                tokens: docs.map(|doc_idx| model.doc_len(doc_idx) as usize).sum(),
                 unknown_tokens: None,
                 placed: true,
                 topics,

@@ -1831,3 +1831,70 @@ fn score_help_explains_every_column_of_its_table() {
         );
     }
 }
+
+#[test]
+fn long_documents_are_flagged_and_can_be_cut_into_chunks() {
+    // Source: issue 11, item 5 — a document holding most tokens is warned
+    // about; --split-every N cuts chunks named after their document, shares
+    // are listed per chunk and, with --merge-chunks, summed back per
+    // document.
+    let scratch = Scratch::new();
+    text_folder(&scratch);
+    let long = "tide quay harbour boat nets trawler catch ".repeat(40);
+    scratch.write("docs/zz-long.txt", &long);
+    themata(scratch.root())
+        .args(["build", "docs", "--out", "c.bin", "--min-docs", "1"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("document `docs/zz-long.txt` holds"))
+        .stderr(predicate::str::contains("--split-every"));
+    run_config(&scratch, "");
+    scratch.write("docs/zz-long.txt", &long);
+    let config = std::fs::read_to_string(scratch.path("run.toml")).unwrap();
+    let config = config.replace("[input]\n", "[input]\nsplit_every = 100\n");
+    scratch.write("run.toml", config);
+    themata(scratch.root())
+        .args(["run", "run.toml", "--quiet"])
+        .assert()
+        .success();
+    let long_rows = std::fs::read_to_string(scratch.path("out/documents-wide.tsv")).unwrap();
+    let ids: Vec<&str> = long_rows
+        .lines()
+        .skip(1)
+        .map(|l| l.split('\t').next().unwrap())
+        .collect();
+    assert!(
+        ids.contains(&"docs/zz-long.txt#1") && ids.contains(&"docs/zz-long.txt#3"),
+        "{ids:?}"
+    );
+    assert_eq!(ids.len(), 12 + 3, "280 tokens in chunks of 100: three chunks");
+    let merged = themata(scratch.root())
+        .args([
+            "show",
+            "out",
+            "--documents",
+            "--layout",
+            "wide",
+            "--format",
+            "tsv",
+            "--merge-chunks",
+        ])
+        .output()
+        .unwrap();
+    let merged = String::from_utf8(merged.stdout).unwrap();
+    let merged_ids: Vec<&str> = merged
+        .lines()
+        .skip(1)
+        .map(|l| l.split('\t').next().unwrap())
+        .collect();
+    assert_eq!(merged_ids.len(), 13);
+    assert!(merged_ids.contains(&"docs/zz-long.txt"), "{merged_ids:?}");
+    let build = read_json(&scratch.path("out/build.json"));
+    assert_eq!(build["documents_split"], 1);
+    scratch.write("new.jsonl", "{\"id\":\"n\",\"text\":\"harbour tide\"}\n");
+    themata(scratch.root())
+        .args(["assign", "out", "new.jsonl", "--merge-chunks"])
+        .assert()
+        .code(BAD_INPUT)
+        .stderr(predicate::str::contains("nothing to merge"));
+}
