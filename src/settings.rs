@@ -21,12 +21,15 @@ use crate::fitting::fit::{
 use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
 use crate::fitting::schedule::{EXACT_UP_TO_TOPICS, SamplerChoice, SamplerKind};
 use crate::ingest::read::{
-    DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, InputFormat, ReadOptions,
+    DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, FieldRole, InputFormat,
+    NamedField, ReadOptions,
 };
 use crate::ingest::tokenize::{
     self, DEFAULT_MAX_LENGTH, DEFAULT_MIN_LENGTH, DEFAULT_STOPWORDS, TokenizerSettings,
 };
 use crate::ingest::vocab::{DEFAULT_MAX_DOC_SHARE, DEFAULT_MIN_DOCS, PruneRules};
+use crate::report::numbers::{DEFAULT_PRECISION, MAX_PRECISION, Numbers};
+use crate::report::{DEFAULT_MIN_SHARE, DEFAULT_WIDE_SLOTS, DocumentLayout, ListingPlan, TopicSelection};
 
 /// A value the user gave that cannot be used.
 #[derive(Debug, thiserror::Error)]
@@ -99,7 +102,9 @@ impl WholeRange {
     }
 
     fn describe(self) -> String {
-        if self.max == u64::MAX {
+        if self.max == u64::MAX && self.min == 0 {
+            "a whole number (0 or more)".to_string()
+        } else if self.max == u64::MAX {
             format!("a whole number of at least {}", self.min)
         } else {
             format!("a whole number from {} to {}", self.min, self.max)
@@ -211,6 +216,8 @@ fn help(text: &str, default: impl std::fmt::Display) -> String {
 
 /// Token lengths, in characters.
 pub const TOKEN_LENGTH: WholeRange = WholeRange::at_least(1);
+/// Any whole number (seeds).
+pub const ANY_WHOLE: WholeRange = WholeRange::at_least(0);
 /// Counts that must be at least 1 (sweeps, samples, lags, words, documents, threads, shards).
 pub const AT_LEAST_ONE: WholeRange = WholeRange::at_least(1);
 /// Numbers of topics.
@@ -261,6 +268,13 @@ pub struct InputOptions {
         help = help("Fail (exit 2) if any document is skipped, instead of reporting it", false)
     )]
     pub strict: Option<bool>,
+    #[arg(
+        long,
+        value_name = "N",
+        value_parser = AT_LEAST_ONE.parser::<usize>(),
+        help = help("Cut documents longer than N tokens into chunks of N tokens (the last one shorter), each a document of its own, named ID#1, ID#2, ...; listings can sum them back (--merge-chunks)", "documents are kept whole")
+    )]
+    pub split_every: Option<usize>,
 }
 overlay!(InputOptions {
     paths,
@@ -269,7 +283,8 @@ overlay!(InputOptions {
     id_field,
     label_field,
     date_field,
-    strict
+    strict,
+    split_every
 });
 
 impl InputOptions {
@@ -289,12 +304,34 @@ impl InputOptions {
             id_field: field("id_field", &self.id_field, DEFAULT_ID_FIELD)?,
             label_field: field("label_field", &self.label_field, DEFAULT_LABEL_FIELD)?,
             date_field: field("date_field", &self.date_field, DEFAULT_DATE_FIELD)?,
+            unique_ids: true,
+            named_fields: [
+                (FieldRole::Id, &self.id_field),
+                (FieldRole::Label, &self.label_field),
+                (FieldRole::Date, &self.date_field),
+            ]
+            .into_iter()
+            .filter_map(|(role, name)| {
+                name.as_ref().map(|name| NamedField {
+                    role,
+                    name: name.clone(),
+                })
+            })
+            .collect(),
         })
     }
 
     /// Whether skipped documents are a failure.
     pub fn is_strict(&self) -> bool {
         self.strict.unwrap_or(false)
+    }
+
+    /// The chunk length of `split_every`, checked.
+    pub fn split_every(&self) -> Result<Option<usize>, SettingsError> {
+        if let Some(every) = self.split_every {
+            AT_LEAST_ONE.check("split_every", every as u64)?;
+        }
+        Ok(self.split_every)
     }
 }
 
@@ -479,6 +516,7 @@ pub struct FitOptions {
     #[arg(
         long,
         value_name = "S",
+        value_parser = ANY_WHOLE.parser::<u64>(),
         help = help("Seed of the random stream; the same seed and inputs give the same model", DEFAULT_SEED)
     )]
     pub seed: Option<u64>,
@@ -513,6 +551,13 @@ pub struct FitOptions {
         help = help("Start from a previous model instead of at random: `published` (the run root's published model, with `run`) or a model folder; unchanged documents keep their topics, the rest are drawn against the previous topics; needs the same number of topics", "a random start")
     )]
     pub start_from: Option<String>,
+    #[arg(
+        long,
+        value_name = "N",
+        value_parser = AT_LEAST_ONE.parser::<u64>(),
+        help = help("Write a checkpoint (OUT.checkpoint beside the output folder) every N sweeps; a run interrupted part way then finishes from it when started again with the same inputs and settings (`fit --resume OUT`, or `run` again), to the same bytes", "no checkpoints")
+    )]
+    pub checkpoint_every: Option<u64>,
 }
 overlay!(FitOptions {
     topics,
@@ -529,7 +574,8 @@ overlay!(FitOptions {
     holdout,
     sampler,
     shards,
-    start_from
+    start_from,
+    checkpoint_every
 });
 
 /// The worker threads asked for, or every core when none is given.
@@ -562,6 +608,8 @@ pub struct FitPlan {
     pub holdout: f64,
     /// A warm start, when asked for.
     pub start_from: Option<StartFrom>,
+    /// Write a checkpoint every this many sweeps (never stored in the model).
+    pub checkpoint_every: Option<u64>,
 }
 
 impl FitOptions {
@@ -595,11 +643,15 @@ impl FitOptions {
             Some(START_FROM_PUBLISHED) => Some(StartFrom::Published),
             Some(folder) => Some(StartFrom::Folder(PathBuf::from(folder))),
         };
+        if let Some(every) = self.checkpoint_every {
+            AT_LEAST_ONE.check("checkpoint_every", every)?;
+        }
         Ok(FitPlan {
             holdout,
             settings,
             threads: resolve_threads(self.threads)?,
             start_from,
+            checkpoint_every: self.checkpoint_every,
         })
     }
 }
@@ -841,6 +893,134 @@ impl GateOptions {
     }
 }
 
+/// Significant digits of printed numbers.
+pub const PRECISION: WholeRange = WholeRange::between(1, MAX_PRECISION as u64);
+/// The help text of `--precision`, shared by every command that prints numbers.
+pub const PRECISION_HELP: &str = "Significant digits of the numbers in TSV and JSON output (tables round for reading); 17 reads back to the exact value";
+
+/// How document listings are cut down and printed (`show --documents`,
+/// `assign`, and the files `run` writes).
+#[derive(Args, Deserialize, Clone, Debug, Default, PartialEq)]
+#[serde(deny_unknown_fields)]
+pub struct ListingOptions {
+    #[arg(long, value_name = "DIGITS", value_parser = PRECISION.parser::<usize>(), help = help(PRECISION_HELP, DEFAULT_PRECISION))]
+    pub precision: Option<usize>,
+    #[arg(
+        long,
+        value_name = "F",
+        value_parser = ShareRange::BELOW_ONE.parser(),
+        conflicts_with = "all_topics",
+        help = help("List a document's topics whose share is at least F (its largest topic always); with --top and no --min-share, the N largest whatever their share", DEFAULT_MIN_SHARE)
+    )]
+    pub min_share: Option<f64>,
+    #[arg(
+        long,
+        value_name = "N",
+        value_parser = AT_LEAST_ONE.parser::<usize>(),
+        conflicts_with = "all_topics",
+        help = help("List at most a document's N largest topics; in the wide layout, the number of topic columns", format!("no limit in the long layout, {DEFAULT_WIDE_SLOTS} in the wide one"))
+    )]
+    pub top: Option<usize>,
+    #[arg(
+        long,
+        num_args = 0..=1,
+        default_missing_value = "true",
+        value_name = "BOOL",
+        help = help("List every topic of every document, in topic order", false)
+    )]
+    pub all_topics: Option<bool>,
+    #[arg(
+        long,
+        value_enum,
+        value_name = "LAYOUT",
+        help = help("Document rows: `long` (one row per document and topic) or `wide` (one row per document: its largest topics side by side); `run` writes both files", "long")
+    )]
+    pub layout: Option<DocumentLayout>,
+    #[arg(
+        long,
+        num_args = 0..=1,
+        default_missing_value = "true",
+        value_name = "BOOL",
+        help = help("List each document cut by --split-every once, its chunks' topic counts summed back (shares and intervals of the whole document)", false)
+    )]
+    pub merge_chunks: Option<bool>,
+}
+impl ListingOptions {
+    /// Returns these settings with every value set in `over` replacing
+    /// ours; a topic selection in `over` (`all_topics`, or `min_share` and
+    /// `top`) replaces ours whole, so the command line can switch between
+    /// them.
+    pub fn overlay(self, over: ListingOptions) -> ListingOptions {
+        let selects = over.all_topics.is_some() || over.min_share.is_some() || over.top.is_some();
+        let (min_share, top, all_topics) = if selects {
+            (over.min_share, over.top, over.all_topics)
+        } else {
+            (self.min_share, self.top, self.all_topics)
+        };
+        ListingOptions {
+            precision: over.precision.or(self.precision),
+            min_share,
+            top,
+            all_topics,
+            layout: over.layout.or(self.layout),
+            merge_chunks: over.merge_chunks.or(self.merge_chunks),
+        }
+    }
+
+    /// The listing plan with defaults applied; checks values from config files.
+    pub fn resolve(&self) -> Result<ListingPlan, SettingsError> {
+        let precision = self.precision.unwrap_or(DEFAULT_PRECISION);
+        PRECISION.check("precision", precision as u64)?;
+        if let Some(min_share) = self.min_share {
+            ShareRange::BELOW_ONE.check("min_share", min_share)?;
+        }
+        if let Some(top) = self.top {
+            AT_LEAST_ONE.check("top", top as u64)?;
+        }
+        let all_topics = self.all_topics.unwrap_or(false);
+        if all_topics && (self.min_share.is_some() || self.top.is_some()) {
+            return Err(invalid(
+                "all_topics",
+                "lists every topic; it cannot be combined with min_share or top",
+            ));
+        }
+        let selection = if all_topics {
+            TopicSelection::All
+        } else {
+            TopicSelection::Largest {
+                min_share: self.min_share.unwrap_or(if self.top.is_some() {
+                    0.0
+                } else {
+                    DEFAULT_MIN_SHARE
+                }),
+                top: self.top,
+            }
+        };
+        Ok(ListingPlan {
+            numbers: Numbers::with_precision(precision),
+            selection,
+            layout: self.layout.unwrap_or_default(),
+            merge_chunks: self.merge_chunks.unwrap_or(false),
+        })
+    }
+}
+
+/// `--precision` alone, for the commands that print numbers but no
+/// document listing (`score`, `sweep`); the same range, help and default as
+/// [`ListingOptions::precision`].
+#[derive(Args, Clone, Debug, Default, PartialEq)]
+pub struct PrecisionOptions {
+    #[arg(long, value_name = "DIGITS", value_parser = PRECISION.parser::<usize>(), help = help(PRECISION_HELP, DEFAULT_PRECISION))]
+    pub precision: Option<usize>,
+}
+
+impl PrecisionOptions {
+    /// How numbers are printed.
+    pub fn resolve(&self) -> Numbers {
+        Numbers::with_precision(self.precision.unwrap_or(DEFAULT_PRECISION))
+    }
+}
+
 /// A whole run as a config file describes it.
 #[derive(Deserialize, Clone, Debug, Default, PartialEq)]
 #[serde(deny_unknown_fields)]
@@ -859,6 +1039,42 @@ pub struct RunConfig {
     pub publish: PublishOptions,
     #[serde(default)]
     pub gate: GateOptions,
+    #[serde(default)]
+    pub listing: ListingOptions,
+}
+
+/// A config-file error message with the Rust type names the TOML reader
+/// puts in it (`expected usize`) said in words.
+fn plain_type_names(message: &str) -> String {
+    const NAMES: [(&str, &str); 10] = [
+        ("usize", "a whole number (0 or more)"),
+        ("u64", "a whole number (0 or more)"),
+        ("u32", "a whole number (0 or more)"),
+        ("u16", "a whole number (0 or more)"),
+        ("u8", "a whole number (0 or more)"),
+        ("i64", "a whole number"),
+        ("i32", "a whole number"),
+        ("f64", "a number"),
+        ("f32", "a number"),
+        ("bool", "true or false"),
+    ];
+    let mut out = message.to_string();
+    for (name, words) in NAMES {
+        for lead in ["expected ", "expected a ", "expected an "] {
+            let pattern = format!("{lead}{name}");
+            if let Some(at) = out.find(&pattern) {
+                let end = at + pattern.len();
+                let boundary = out[end..]
+                    .chars()
+                    .next()
+                    .is_none_or(|c| !c.is_ascii_alphanumeric());
+                if boundary {
+                    out.replace_range(at..end, &format!("expected {words}"));
+                }
+            }
+        }
+    }
+    out
 }
 
 /// 1-based line of a byte offset in `text`.
@@ -942,7 +1158,7 @@ impl RunConfig {
         })?;
         let mut config: RunConfig = toml::from_str(&text).map_err(|err| {
             let line = err.span().map_or(1, |span| line_of(&text, span.start));
-            let message = err.message().trim().to_string();
+            let message = plain_type_names(err.message().trim());
             // Name the key of that line, unless the message already does.
             let message = match key_at_line(&text, line) {
                 Some(key) if !message.contains(&key) => format!("{key}: {message}"),
@@ -1005,6 +1221,7 @@ impl RunConfig {
             other => other,
         };
         self.input.resolve().map_err(|err| at("input", err))?;
+        self.input.split_every().map_err(|err| at("input", err))?;
         let no_lists = TokenizerOptions {
             stopwords: Some(vec!["none".into()]),
             ..self.tokenizer.clone()
@@ -1026,6 +1243,7 @@ impl RunConfig {
         }
         self.publish.resolve().map_err(|err| at("publish", err))?;
         self.gate.check().map_err(|err| at("gate", err))?;
+        self.listing.resolve().map_err(|err| at("listing", err))?;
         Ok(())
     }
 }
@@ -1034,7 +1252,7 @@ impl RunConfig {
 /// `docs/config.md` is this text; a test fails when it is stale.
 pub fn config_reference() -> String {
     use clap::{Args as _, Command};
-    let sections: [(&str, Command); 7] = [
+    let sections: [(&str, Command); 8] = [
         ("input", InputOptions::augment_args(Command::new("input"))),
         (
             "tokenizer",
@@ -1048,6 +1266,7 @@ pub fn config_reference() -> String {
         ("output", OutputOptions::augment_args(Command::new("output"))),
         ("publish", PublishOptions::augment_args(Command::new("publish"))),
         ("gate", GateOptions::augment_args(Command::new("gate"))),
+        ("listing", ListingOptions::augment_args(Command::new("listing"))),
     ];
     let mut out = String::from(
         "# Config file keys\n\nGenerated from the option definitions in `src/settings.rs`; \
@@ -1113,6 +1332,16 @@ mod tests {
         let (_folder, path) = write_config("[fit]\ntopics = \"ten\"\n");
         let err = RunConfig::load(&path).unwrap_err().to_string();
         assert!(err.contains("run.toml:2:"), "{err}");
+        // Source: issue 11, item 7 — no Rust type names in messages.
+        assert!(err.contains("expected a whole number (0 or more)"), "{err}");
+        for (config, line) in [("[fit]\nseed = -1\n", 2), ("[fit]\niterations = 2.5\n", 2)] {
+            let (_folder, path) = write_config(config);
+            let err = RunConfig::load(&path).unwrap_err().to_string();
+            assert!(err.contains(&format!("run.toml:{line}:")), "{err}");
+            for name in ["usize", "u64", "u32", "f64"] {
+                assert!(!err.contains(name), "{err}");
+            }
+        }
     }
 
     #[test]

@@ -4,11 +4,13 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use themata::evaluate::heldout::FoldInSettings;
-use themata::evaluate::score::{self, EncodedDocument, Placement};
-use themata::ingest::read::{self, Diagnostic};
+use themata::evaluate::score;
+use themata::ingest::read::{self, Diagnostic, RawDocument};
 use themata::ingest::tokenize::Tokenizer;
+use themata::report::{self, DocumentRow, DocumentView, ListingPlan};
+use themata::settings::{ANY_WHOLE, AT_LEAST_ONE, ListingOptions, resolve_threads};
 
-use super::common::parse_level;
+use super::common::{count, parse_level};
 use super::{Failure, RecordOptions};
 use themata::model::folder::load_model;
 
@@ -19,9 +21,9 @@ const BATCH: usize = 256;
 /// Output layouts of `assign`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum AssignFormat {
-    /// `document<TAB>topic<TAB>share<TAB>low<TAB>high`, as `show --documents`.
+    /// Tab-separated rows in the `--layout` asked for, as `show --documents --format tsv`.
     Tsv,
-    /// One JSON object per document with its shares, intervals and word counts.
+    /// One JSON object per document with its listed topics, intervals and token counts.
     Jsonl,
 }
 
@@ -43,11 +45,16 @@ pub struct AssignArgs {
     #[arg(long, value_name = "P", default_value_t = themata::evaluate::uncertainty::DEFAULT_LEVEL, value_parser = parse_level)]
     pub interval: f64,
     /// Fold-in samples kept per document (after 50 burn-in sweeps, 5 sweeps apart)
-    #[arg(long, value_name = "S", default_value_t = 10)]
+    #[arg(long, value_name = "S", default_value_t = 10, value_parser = AT_LEAST_ONE.parser::<usize>())]
     pub samples: usize,
     /// Seed of the fold-in random streams
-    #[arg(long, value_name = "S", default_value_t = 1)]
+    #[arg(long, value_name = "S", default_value_t = 1, value_parser = ANY_WHOLE.parser::<u64>())]
     pub seed: u64,
+    /// Worker threads [default: all cores]
+    #[arg(long, value_name = "T", value_parser = AT_LEAST_ONE.parser::<usize>())]
+    pub threads: Option<usize>,
+    #[command(flatten, next_help_heading = "Listing")]
+    pub listing: ListingOptions,
     /// No summary on stderr
     #[arg(long, short)]
     pub quiet: bool,
@@ -55,11 +62,13 @@ pub struct AssignArgs {
 
 /// Runs `themata assign`.
 pub fn run(args: AssignArgs) -> Result<(), Failure> {
-    if args.samples == 0 {
+    let plan: ListingPlan = args.listing.resolve()?;
+    if plan.merge_chunks {
         return Err(Failure::bad_input(anyhow::anyhow!(
-            "--samples must be at least 1"
+            "--merge-chunks sums back the chunks --split-every cut at build time; assign places each new document whole, so there is nothing to merge"
         )));
     }
+    let threads = resolve_threads(args.threads)?;
     let model = load_model(&args.dir)?;
     let tokenizer = Tokenizer::new(&model.corpus.tokenizer).map_err(Failure::bad_input)?;
     let weights = score::TopicWeights::of(&model);
@@ -67,60 +76,88 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
         samples: args.samples,
         ..FoldInSettings::default()
     };
-    let options = args.records.resolve()?;
+    let options = read::ReadOptions {
+        unique_ids: false,
+        ..args.records.resolve()?
+    };
+    let pool = themata::thread_pool(threads).map_err(Failure::system)?;
+    let view = DocumentView::of(&plan, model.n_topics());
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
-    if args.format == AssignFormat::Tsv {
-        writeln!(out, "document\ttopic\tshare\tlow\thigh").map_err(Failure::output)?;
-    }
-    let mut batch: Vec<EncodedDocument> = Vec::with_capacity(BATCH);
+    // The header is written with the first rows (or at the end), so that a
+    // bad input stops the command before anything is printed.
+    let mut header_due = args.format == AssignFormat::Tsv;
+    let mut batch: Vec<RawDocument> = Vec::with_capacity(BATCH);
     let mut totals = Totals::default();
     let mut failure: Option<Failure> = None;
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
-    let mut flush = |batch: &mut Vec<EncodedDocument>, totals: &mut Totals| -> Result<(), Failure> {
+    let mut warnings: Vec<String> = Vec::new();
+    // Each document is encoded, placed and printed into its own buffer in
+    // parallel; the buffers are written in input order.
+    let mut flush = |batch: &mut Vec<RawDocument>, totals: &mut Totals| -> Result<(), Failure> {
         let first = totals.documents;
-        let placed: Vec<Result<Placement, score::ScoreError>> = {
+        let placed: Vec<Result<(DocumentRow, Vec<u8>), score::ScoreError>> = pool.install(|| {
             use rayon::prelude::*;
             batch
                 .par_iter()
                 .enumerate()
-                .map(|(offset, doc)| {
+                .map(|(offset, raw)| {
+                    let doc = score::encode_text(&tokenizer, &model.corpus.vocabulary, &raw.id, &raw.text);
                     let mut rng = score::document_rng(args.seed, first + offset);
-                    score::place(&model, &weights, doc, &fold_in, args.interval, &mut rng)
+                    let placement = score::place(&model, &weights, &doc, &fold_in, &mut rng)?;
+                    let row = report::placement_row(
+                        &placement,
+                        &model.priors.alpha,
+                        plan.selection,
+                        args.interval,
+                    )?;
+                    let mut text = Vec::with_capacity(256);
+                    match args.format {
+                        AssignFormat::Tsv => view.write_tsv_row(&mut text, &row),
+                        AssignFormat::Jsonl => view.write_json_line(&mut text, &row),
+                    }
+                    .expect("writing to memory cannot fail");
+                    Ok((row, text))
                 })
                 .collect()
-        };
-        for placement in placed {
-            let placement = placement.map_err(Failure::system)?;
-            totals.add(&placement);
-            write_placement(&mut out, &placement, args.format).map_err(Failure::output)?;
-            if placement.no_known_words {
+        });
+        if header_due {
+            view.write_tsv_header(&mut out).map_err(Failure::output)?;
+            header_due = false;
+        }
+        for result in placed {
+            let (row, text) = result.map_err(Failure::system)?;
+            totals.add(&row);
+            out.write_all(&text).map_err(Failure::output)?;
+            if !row.placed {
                 eprintln!(
                     "themata: flagged: document `{}` has no word the model knows ({} tokens, all unknown); it was not placed",
-                    placement.document, placement.unknown_tokens
+                    row.document,
+                    row.unknown_tokens.unwrap_or(0)
                 );
             }
         }
         batch.clear();
         Ok(())
     };
-    read::read_documents(&args.inputs, &options, &mut diagnostics, &mut |raw| {
-        if failure.is_some() {
-            return;
-        }
-        batch.push(score::encode_text(
-            &tokenizer,
-            &model.corpus.vocabulary,
-            &raw.id,
-            &raw.text,
-        ));
-        if batch.len() == BATCH
-            && let Err(err) = flush(&mut batch, &mut totals)
-        {
-            failure = Some(err);
-        }
-    })
-    .map_err(Failure::bad_input)?;
+    read::read_documents(
+        &args.inputs,
+        &options,
+        &mut diagnostics,
+        &mut warnings,
+        &mut |raw| {
+            if failure.is_some() {
+                return;
+            }
+            batch.push(raw);
+            if batch.len() == BATCH
+                && let Err(err) = flush(&mut batch, &mut totals)
+            {
+                failure = Some(err);
+            }
+        },
+    )
+    .map_err(super::record_read_failure)?;
     if let Some(err) = failure {
         return Err(err);
     }
@@ -129,12 +166,15 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     for diagnostic in &diagnostics {
         eprintln!("themata: skipped: {diagnostic}");
     }
+    for warning in &warnings {
+        eprintln!("themata: warning: {warning}");
+    }
     if !args.quiet {
         eprintln!(
-            "assigned {} documents: {} known tokens, {} unknown tokens; {} with no known word; {} skipped",
-            totals.documents,
-            totals.tokens,
-            totals.unknown,
+            "assigned {}: {} known, {} unknown; {} with no known word; {} skipped",
+            count(totals.documents, "document"),
+            count(totals.tokens, "token"),
+            count(totals.unknown, "token"),
             totals.without_known_words,
             diagnostics.len()
         );
@@ -151,32 +191,10 @@ struct Totals {
 }
 
 impl Totals {
-    fn add(&mut self, placement: &Placement) {
+    fn add(&mut self, row: &DocumentRow) {
         self.documents += 1;
-        self.tokens += placement.tokens;
-        self.unknown += placement.unknown_tokens;
-        self.without_known_words += usize::from(placement.no_known_words);
-    }
-}
-
-fn write_placement(out: &mut dyn Write, placement: &Placement, format: AssignFormat) -> std::io::Result<()> {
-    match format {
-        AssignFormat::Jsonl => {
-            serde_json::to_writer(&mut *out, placement)?;
-            writeln!(out)
-        }
-        AssignFormat::Tsv => {
-            if placement.no_known_words {
-                return Ok(());
-            }
-            for (topic, share) in placement.shares.iter().enumerate() {
-                writeln!(
-                    out,
-                    "{}\t{}\t{}\t{}\t{}",
-                    placement.document, topic, share, placement.low[topic], placement.high[topic]
-                )?;
-            }
-            Ok(())
-        }
+        self.tokens += row.tokens;
+        self.unknown += row.unknown_tokens.unwrap_or(0);
+        self.without_known_words += usize::from(!row.placed);
     }
 }

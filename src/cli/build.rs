@@ -16,7 +16,7 @@ pub fn run(args: BuildArgs) -> Result<(), Failure> {
     )?;
     save_corpus(&corpus, &args.out)?;
     if !args.quiet {
-        println!("wrote {}", args.out.display());
+        say!("wrote {}", args.out.display())?;
     }
     Ok(())
 }

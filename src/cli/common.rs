@@ -10,12 +10,15 @@ use themata::evaluate::score;
 use themata::evaluate::uncertainty::DEFAULT_LEVEL;
 use themata::fitting::fit::{self, FitTiming};
 use themata::fitting::warm::{self, WarmStart};
-use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus};
+use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus, CorpusError};
 use themata::model::Model;
 use themata::model::folder;
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
-use themata::report::{self, DocumentListing, ListingFormat, TopicListing, WordLimit};
+use themata::report::numbers::Numbers;
+use themata::report::{
+    self, DocumentLayout, DocumentView, ListingFormat, ListingPlan, TopicListing, WordLimit,
+};
 use themata::settings::{FitPlan, InputOptions, StartFrom, TokenizerOptions, VocabularyOptions};
 
 use super::Failure;
@@ -37,11 +40,26 @@ pub fn build_corpus(
         read: input.resolve()?,
         tokenizer: tokenizer.resolve()?,
         prune: vocabulary.resolve()?,
+        split_every: input.split_every()?,
     };
-    let (corpus, summary) = corpus::build(inputs, &settings)?;
-    print_diagnostics(&summary);
+    let (corpus, summary) = match corpus::build(inputs, &settings) {
+        Ok(built) => built,
+        Err(CorpusError::Empty { summary }) => {
+            // The examples explain the failure, so they are printed even
+            // when quiet; the error repeats the counts per reason.
+            print_diagnostics(&summary);
+            return Err(CorpusError::Empty { summary }.into());
+        }
+        Err(other) => return Err(other.into()),
+    };
     if !quiet {
-        print_summary(&summary);
+        print_diagnostics(&summary);
+        for warning in &summary.warnings {
+            eprintln!("themata: warning: {warning}");
+        }
+    }
+    if !quiet {
+        print_summary(&summary)?;
     }
     if input.is_strict() && !summary.diagnostics.is_empty() {
         return Err(Failure::bad_input(anyhow::anyhow!(
@@ -64,24 +82,27 @@ pub fn print_diagnostics(summary: &BuildSummary) {
     }
 }
 
-fn print_summary(summary: &BuildSummary) {
+fn print_summary(summary: &BuildSummary) -> Result<(), Failure> {
     let skipped: usize = summary.skipped.values().sum();
-    let reasons: Vec<String> = summary
-        .skipped
-        .iter()
-        .map(|(reason, count)| format!("{reason} {count}"))
-        .collect();
-    let reasons = if reasons.is_empty() {
+    let reasons = if summary.skipped.is_empty() {
         String::new()
     } else {
-        format!(" ({})", reasons.join(", "))
+        format!(" ({})", summary.skipped_reasons())
     };
-    println!(
-        "documents: {} read, {} kept, {} skipped{}",
-        summary.documents_read, summary.documents_kept, skipped, reasons
-    );
+    let split = if summary.documents_split > 0 {
+        format!(" ({} cut into chunks)", summary.documents_split)
+    } else {
+        String::new()
+    };
+    say!(
+        "documents: {} read{split}, {} kept, {} skipped{}",
+        summary.documents_read,
+        summary.documents_kept,
+        skipped,
+        reasons
+    )?;
     let pruning = &summary.pruning;
-    println!(
+    say!(
         "tokens: {} kept of {}; vocabulary: {} words of {} seen (dropped: {} too rare, {} too common, {} over the cap, {} listed)",
         summary.tokens,
         summary.tokens_before_pruning,
@@ -91,7 +112,17 @@ fn print_summary(summary: &BuildSummary) {
         pruning.too_common,
         pruning.over_cap,
         pruning.dropped_by_list
-    );
+    )?;
+    Ok(())
+}
+
+/// `n` and the noun, plural unless `n` is 1 (`1 thread`, `2 threads`).
+pub fn count(n: usize, noun: &str) -> String {
+    if n == 1 {
+        format!("1 {noun}")
+    } else {
+        format!("{n} {noun}s")
+    }
 }
 
 /// Parses a credible-interval probability strictly between 0 and 1.
@@ -194,12 +225,16 @@ pub struct Fitted {
 
 /// Fits a model with a progress bar on a worker pool (used by `run`): from
 /// `previous` when given (a warm start), else at random; scores the
-/// `holdout` documents when asked.
+/// `holdout` documents when asked. With `plan.checkpoint_every` it writes
+/// checkpoints to `checkpoint`, and when one is already there from an
+/// interrupted run of the same corpus and settings, it finishes that run
+/// from it (to the bytes an uninterrupted run gives).
 pub fn fit_model(
     corpus: Corpus,
     plan: &FitPlan,
     previous: Option<&Model>,
     stable_split: bool,
+    checkpoint: &Path,
     quiet: bool,
 ) -> Result<Fitted, Failure> {
     let (train, held) = split_for_holdout(corpus, plan, stable_split)?;
@@ -210,7 +245,33 @@ pub fn fit_model(
         }
         None => (fit::start(train, &plan.settings)?, None),
     };
-    let timing = sample(&mut model, plan.threads, None, quiet)?;
+    let checkpointing = plan
+        .checkpoint_every
+        .map(|every| (every, checkpoint.to_path_buf()));
+    if checkpointing.is_some() && checkpoint.is_file() {
+        match Model::load(checkpoint) {
+            Ok(saved) if same_run(&saved, &model) => {
+                if !quiet {
+                    eprintln!(
+                        "themata: resuming from {} (sweep {} of {})",
+                        checkpoint.display(),
+                        saved.iterations_done,
+                        saved.target
+                    );
+                }
+                model = saved;
+            }
+            Ok(_) => eprintln!(
+                "themata: warning: {} was written by a run of other inputs or settings; starting afresh (it will be replaced)",
+                checkpoint.display()
+            ),
+            Err(err) => eprintln!(
+                "themata: warning: cannot resume from {}: {err}; starting afresh (it will be replaced)",
+                checkpoint.display()
+            ),
+        }
+    }
+    let timing = sample(&mut model, plan.threads, checkpointing, quiet)?;
     let heldout = match held {
         Some(held) => {
             let score = score_holdout(&model, &held, plan.threads)?;
@@ -238,9 +299,23 @@ pub fn warm_start_model(plan: &FitPlan) -> Result<Option<Model>, Failure> {
     }
 }
 
+/// Whether `saved` is a checkpoint of the run that starts as `fresh`: the
+/// same corpus, seed, topics, schedule, target and fixed priors, not yet
+/// finished.
+fn same_run(saved: &Model, fresh: &Model) -> bool {
+    saved.corpus == fresh.corpus
+        && saved.seed == fresh.seed
+        && saved.n_topics() == fresh.n_topics()
+        && saved.schedule == fresh.schedule
+        && saved.target == fresh.target
+        && saved.iterations_done < saved.target
+        && (saved.schedule.learn_alpha || saved.priors.alpha == fresh.priors.alpha)
+        && (saved.schedule.learn_beta || saved.priors.beta == fresh.priors.beta)
+}
+
 /// What was fitted, and a warning when the trace has not levelled off.
-pub fn print_fit_line(summary: &FitSummary, out: &Path) {
-    println!(
+pub fn print_fit_line(summary: &FitSummary, out: &Path) -> Result<(), Failure> {
+    say!(
         "fitted {} topics to {} tokens in {} sweeps: log-likelihood {:.1}, {:.0} token updates/s; wrote {}",
         summary.topics,
         summary.tokens,
@@ -248,25 +323,31 @@ pub fn print_fit_line(summary: &FitSummary, out: &Path) {
         summary.log_likelihood,
         summary.tokens_per_second,
         out.display()
-    );
+    )?;
     if let Some(perplexity) = summary.heldout_perplexity {
-        println!("held-out perplexity: {perplexity:.2} (document completion)");
+        say!("held-out perplexity: {perplexity:.2} (document completion)")?;
     }
-    print_convergence(summary);
+    print_convergence(summary)
 }
 
 /// Prints the learned priors' summary and warns when not converged (stderr).
-pub fn print_convergence(summary: &FitSummary) {
+pub fn print_convergence(summary: &FitSummary) -> Result<(), Failure> {
     if summary.learned_alpha {
         let alpha: Vec<String> = summary.alpha.iter().map(|a| format!("{a:.3}")).collect();
-        println!(
+        say!(
             "learned alpha: [{}] (sum {:.3})",
             alpha.join(", "),
             summary.alpha.iter().sum::<f64>()
-        );
+        )?;
     }
     if summary.learned_beta {
-        println!("learned beta: {}", summary.beta);
+        let beta = match &summary.beta {
+            serde_json::Value::Number(number) => number
+                .as_f64()
+                .map_or_else(|| number.to_string(), |beta| Numbers::default().text(beta)),
+            other => other.to_string(),
+        };
+        say!("learned beta: {beta}")?;
     }
     let convergence = &summary.convergence;
     if !convergence.converged {
@@ -280,38 +361,62 @@ pub fn print_convergence(summary: &FitSummary) {
             ),
         }
     }
+    Ok(())
 }
 
-/// Writes `topics.tsv` and `documents.tsv` of a run into `staged` and
-/// returns the listings (for the printed report).
+/// The long document listing a run writes.
+const DOCUMENTS_FILE: &str = "documents.tsv";
+/// The wide document listing a run writes (one row per document).
+const WIDE_DOCUMENTS_FILE: &str = "documents-wide.tsv";
+
+/// Writes a run's listings into its staged folder: `topics.tsv` and the
+/// documents in both layouts. Returns the topic listings for the printed
+/// table.
 pub fn stage_listings(
     staged: &StagedFolder,
     model: &Model,
     top_words: usize,
-) -> Result<(Vec<TopicListing>, Vec<DocumentListing>), Failure> {
+    listing: &ListingPlan,
+) -> Result<Vec<TopicListing>, Failure> {
     let topics =
         report::topic_listings(model, WordLimit::Top(top_words), DEFAULT_LEVEL).map_err(Failure::system)?;
-    let documents = report::document_listings(model, DEFAULT_LEVEL).map_err(Failure::system)?;
     let mut topics_tsv = Vec::new();
-    report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv).map_err(Failure::system)?;
+    report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv, listing.numbers)
+        .map_err(Failure::system)?;
     staged.write("topics.tsv", &topics_tsv)?;
-    let mut documents_tsv = Vec::new();
-    report::write_documents(&mut documents_tsv, &documents, ListingFormat::Tsv).map_err(Failure::system)?;
-    staged.write("documents.tsv", &documents_tsv)?;
-    Ok((topics, documents))
+    let rows = report::document_rows(model, listing.selection, DEFAULT_LEVEL, listing.merge_chunks)
+        .map_err(Failure::system)?;
+    let view = DocumentView::of(listing, model.n_topics());
+    for (name, layout) in [
+        (DOCUMENTS_FILE, DocumentLayout::Long),
+        (WIDE_DOCUMENTS_FILE, DocumentLayout::Wide),
+    ] {
+        let mut tsv = Vec::new();
+        report::write_documents(&mut tsv, &rows, ListingFormat::Tsv, &view.with_layout(layout))
+            .map_err(Failure::system)?;
+        staged.write(name, &tsv)?;
+    }
+    Ok(topics)
 }
 
 /// Prints a run's topic table and, when documents carry labels, how well
 /// their top topics agree with them.
-pub fn print_run_report(topics: &[TopicListing], documents: &[DocumentListing]) {
+pub fn print_run_report(
+    topics: &[TopicListing],
+    summary: &FitSummary,
+    listing: &ListingPlan,
+) -> Result<(), Failure> {
     let mut table = Vec::new();
-    if report::write_topics(&mut table, topics, ListingFormat::Table).is_ok() {
-        print!("{}", String::from_utf8_lossy(&table));
-    }
-    if let Some(agreement) = report::label_agreement(documents) {
-        println!(
+    report::write_topics(&mut table, topics, ListingFormat::Table, listing.numbers)
+        .map_err(Failure::system)?;
+    say_raw!("{}", String::from_utf8_lossy(&table))?;
+    if let Some(agreement) = &summary.label_agreement {
+        say!(
             "label agreement: normalised mutual information {:.3} between each document's top topic and its label ({} labelled documents, {} labels)",
-            agreement.nmi, agreement.documents, agreement.labels
-        );
+            agreement.nmi,
+            agreement.documents,
+            agreement.labels
+        )?;
     }
+    Ok(())
 }

@@ -88,7 +88,10 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     };
     // Refuse an unusable output folder before sampling, not after.
     drop(StagedFolder::begin(&out)?);
-    let checkpoint = args.checkpoint_every.map(|every| (every, checkpoint_path(&out)));
+    let checkpoint = args
+        .fit
+        .checkpoint_every
+        .map(|every| (every, checkpoint_path(&out)));
     let timing = sample(&mut model, threads, checkpoint, args.quiet)?;
     let mut summary = FitSummary::new(
         &model,
@@ -102,7 +105,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     }
     folder::write_model_folder(&out, &model, &summary)?;
     if !args.quiet {
-        print_fit_line(&summary, &out);
+        print_fit_line(&summary, &out)?;
     }
     Ok(())
 }
@@ -112,6 +115,7 @@ fn refuse_changed_settings(options: &FitOptions) -> Result<(), Failure> {
     let fixed = FitOptions {
         iterations: None,
         threads: None,
+        checkpoint_every: None,
         ..options.clone()
     };
     if options.holdout.is_some() {
@@ -121,7 +125,7 @@ fn refuse_changed_settings(options: &FitOptions) -> Result<(), Failure> {
     }
     if fixed != FitOptions::default() {
         return Err(Failure::bad_input(anyhow::anyhow!(
-            "a continued or resumed fit keeps the model's topics, priors, seed and schedule; only --iterations (with --continue) and --threads may be given"
+            "a continued or resumed fit keeps the model's topics, priors, seed and schedule; only --iterations (with --continue), --threads and --checkpoint-every may be given"
         )));
     }
     Ok(())

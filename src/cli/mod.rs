@@ -1,6 +1,24 @@
 //! Command-line glue: the argument definitions, the error type that carries
 //! an exit code, and the dispatch to one file per subcommand.
 
+/// `println!` to standard output that ends the command quietly when the
+/// reader has gone away (`themata score DIR | head -1`) instead of
+/// panicking: a write error becomes a [`Failure::output`].
+macro_rules! say {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        writeln!(std::io::stdout().lock(), $($arg)*).map_err($crate::cli::Failure::output)
+    }};
+}
+
+/// [`say!`] without the line break.
+macro_rules! say_raw {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        write!(std::io::stdout().lock(), $($arg)*).map_err($crate::cli::Failure::output)
+    }};
+}
+
 mod assign;
 mod bench;
 mod build;
@@ -24,8 +42,8 @@ use themata::fitting::fit::FitError;
 use themata::ingest::corpus::CorpusError;
 use themata::model::format::FormatError;
 use themata::settings::{
-    FitOptions, GateOptions, InputOptions, OutputOptions, PublishOptions, SettingsError, TokenizerOptions,
-    VocabularyOptions,
+    FitOptions, GateOptions, InputOptions, ListingOptions, OutputOptions, PublishOptions, SettingsError,
+    TokenizerOptions, VocabularyOptions,
 };
 
 /// Exit code of a run the quality gate refused (its folder is kept, the
@@ -186,12 +204,10 @@ pub struct RecordOptions {
     /// Input format: auto decides by file extension (.txt/.md, .jsonl/.ndjson, .csv)
     #[arg(long, value_enum, default_value_t = themata::ingest::read::InputFormat::Auto)]
     pub input_format: themata::ingest::read::InputFormat,
-    /// JSON Lines field or CSV column holding the text
-    #[arg(long, value_name = "NAME", default_value = themata::ingest::read::DEFAULT_TEXT_FIELD)]
-    pub text_field: String,
-    /// JSON Lines field or CSV column holding the document id
-    #[arg(long, value_name = "NAME", default_value = themata::ingest::read::DEFAULT_ID_FIELD)]
-    pub id_field: String,
+    #[arg(long, value_name = "NAME", help = format!("JSON Lines field or CSV column holding the text [default: {}]", themata::ingest::read::DEFAULT_TEXT_FIELD))]
+    pub text_field: Option<String>,
+    #[arg(long, value_name = "NAME", help = format!("JSON Lines field or CSV column holding the document id [default: {}]", themata::ingest::read::DEFAULT_ID_FIELD))]
+    pub id_field: Option<String>,
 }
 
 impl RecordOptions {
@@ -199,8 +215,8 @@ impl RecordOptions {
     pub fn resolve(&self) -> Result<themata::ingest::read::ReadOptions, SettingsError> {
         InputOptions {
             format: Some(self.input_format),
-            text_field: Some(self.text_field.clone()),
-            id_field: Some(self.id_field.clone()),
+            text_field: self.text_field.clone(),
+            id_field: self.id_field.clone(),
             ..InputOptions::default()
         }
         .resolve()
@@ -242,9 +258,6 @@ pub struct FitArgs {
     /// Finish a run that was interrupted, from the checkpoint beside DIR
     #[arg(long, value_name = "DIR", conflicts_with_all = ["corpus", "out"])]
     pub resume: Option<PathBuf>,
-    /// Write a checkpoint (DIR.checkpoint beside the output folder) every N sweeps
-    #[arg(long, value_name = "N")]
-    pub checkpoint_every: Option<u64>,
     #[command(flatten, next_help_heading = "Fitting")]
     pub fit: FitOptions,
     /// No progress bar and no summary line
@@ -272,9 +285,25 @@ pub struct RunArgs {
     pub publish: PublishOptions,
     #[command(flatten, next_help_heading = "Gate (overrides the config file)")]
     pub gate: GateOptions,
+    #[command(flatten, next_help_heading = "Listing (overrides the config file)")]
+    pub listing: ListingOptions,
     /// No progress bar; print only the report
     #[arg(long, short)]
     pub quiet: bool,
+}
+
+/// A failure to read the new documents of `assign` or `score`, where the
+/// input format option is `--input-format` (`--format` names the output).
+pub fn record_read_failure(err: themata::ingest::read::ReadError) -> Failure {
+    use themata::ingest::read::ReadError;
+    match err {
+        ReadError::UnknownFormat { path } => Failure::bad_input(anyhow::anyhow!(
+            "{}: cannot tell the format from the file extension; pass --input-format text|jsonl|csv",
+            path.display()
+        )),
+        ReadError::Io { .. } => Failure::system(err),
+        other => Failure::bad_input(other),
+    }
 }
 
 /// A closed pipe (`themata show | head`) is not an error.

@@ -1,7 +1,7 @@
 //! `themata run`: build, fit and report as a config file describes, into one
 //! output folder that is replaced whole only when everything succeeded.
 
-use themata::model::folder::stage_model;
+use themata::model::folder::{checkpoint_path, remove_checkpoint, stage_model};
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
 use themata::settings::{GateOptions, RunConfig};
@@ -21,6 +21,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     let vocabulary = config.vocabulary.overlay(args.vocabulary);
     let fit = config.fit.overlay(args.fit);
     let output = config.output.overlay(args.output);
+    let listing = config.listing.overlay(args.listing).resolve()?;
     let plan = fit.resolve()?;
     let inputs = input.paths.clone().unwrap_or_default();
     if inputs.is_empty() {
@@ -43,6 +44,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
             publish: &publish,
             gate: &gate,
             top_words,
+            listing: &listing,
             quiet: args.quiet,
         });
     }
@@ -69,7 +71,14 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         timing,
         heldout,
         ..
-    } = fit_model(corpus, &plan, previous.as_ref(), false, args.quiet)?;
+    } = fit_model(
+        corpus,
+        &plan,
+        previous.as_ref(),
+        false,
+        &checkpoint_path(&out_dir),
+        args.quiet,
+    )?;
     let mut summary = FitSummary::new(
         &model,
         plan.threads,
@@ -80,7 +89,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     if let Some((_, score)) = heldout {
         summary = summary.with_heldout(score);
     }
-    let (topics, documents) = stage_listings(&staged, &model, top_words)?;
+    let topics = stage_listings(&staged, &model, top_words, &listing)?;
     let report = themata::report::html::ReportContext {
         title: out_dir.file_name().map_or_else(
             || out_dir.display().to_string(),
@@ -99,9 +108,10 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     staged.write("build.json", &build_json)?;
     stage_model(&staged, &model, &summary)?;
     staged.commit()?;
-    print_run_report(&topics, &documents);
+    remove_checkpoint(&out_dir)?;
+    print_run_report(&topics, &summary, &listing)?;
     if !args.quiet {
-        print_fit_line(&summary, &out_dir);
+        print_fit_line(&summary, &out_dir)?;
     }
     Ok(())
 }

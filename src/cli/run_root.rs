@@ -24,6 +24,7 @@ use themata::publish::lock::{Holder, RootLock};
 use themata::publish::names::{self, TopicNames};
 use themata::publish::record::{RUN_RECORD_VERSION, RunCounts, RunRecord, RunScores, StageTime, TopicRecord};
 use themata::publish::root::{REJECTED_SUFFIX, RunRoot};
+use themata::report::ListingPlan;
 use themata::settings::{
     FitPlan, GateOptions, InputOptions, PublishPlan, StartFrom, TokenizerOptions, VocabularyOptions,
 };
@@ -104,7 +105,20 @@ pub struct RootRun<'a> {
     pub publish: &'a PublishPlan,
     pub gate: &'a GateOptions,
     pub top_words: usize,
+    pub listing: &'a ListingPlan,
     pub quiet: bool,
+}
+
+/// Removes a file, when there is one.
+fn remove_file_if_any(path: &Path) -> Result<(), Failure> {
+    match std::fs::remove_file(path) {
+        Ok(()) => Ok(()),
+        Err(err) if err.kind() == std::io::ErrorKind::NotFound => Ok(()),
+        Err(err) => Err(Failure::system(anyhow::anyhow!(
+            "cannot remove {}: {err}",
+            path.display()
+        ))),
+    }
 }
 
 /// Appends `text` to the log of a committed run folder (lines written
@@ -219,7 +233,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         timing,
         heldout,
         warm,
-    } = fit_model(corpus, job.plan, warm_from, true, job.quiet)?;
+    } = fit_model(corpus, job.plan, warm_from, true, &root.checkpoint(), job.quiet)?;
     if let Some(warm) = &warm {
         log.line(
             "fit",
@@ -328,7 +342,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
     if let Some((_, score)) = &heldout {
         summary = summary.with_heldout(score.clone());
     }
-    let (topics, documents) = stage_listings(&staged, &model, job.top_words)?;
+    let topics = stage_listings(&staged, &model, job.top_words, job.listing)?;
     stage_model(&staged, &model, &summary)?;
     let figures = GateFigures {
         matched_share: drift.as_ref().map(Drift::matched_share),
@@ -414,6 +428,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
 
     if !verdict.passed {
         let kept = staged.commit_as(&format!("{name}{REJECTED_SUFFIX}"))?;
+        remove_file_if_any(&root.checkpoint())?;
         eprintln!("themata: {}", verdict.reason);
         return Err(Failure::gate_failed(format!(
             "the quality gate refused run {name}; it is kept in {} and {} stays published",
@@ -422,6 +437,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         )));
     }
     let run_dir = staged.commit()?;
+    remove_file_if_any(&root.checkpoint())?;
     root.point_to(&name)?;
     let mut after = RunLog {
         lines: Vec::new(),
@@ -468,9 +484,9 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         }
     }
     append_log(&run_dir, &after.text())?;
-    print_run_report(&topics, &documents);
+    print_run_report(&topics, &summary, job.listing)?;
     if !job.quiet {
-        print_fit_line(&summary, &run_dir);
+        print_fit_line(&summary, &run_dir)?;
     }
     drop(lock);
     Ok(())

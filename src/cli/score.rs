@@ -14,13 +14,35 @@ use themata::ingest::read::{self, Diagnostic};
 use themata::ingest::tokenize::Tokenizer;
 use themata::model::Model;
 use themata::model::format::FileKind;
-use themata::report::ListingFormat;
+use themata::settings::{ANY_WHOLE, AT_LEAST_ONE, PrecisionOptions, WholeRange};
 
 use super::{Failure, RecordOptions};
 use themata::model::folder::load_model;
 
+/// What the columns of the per-topic table mean (shown by `score --help`;
+/// the README repeats it).
+const TABLE_COLUMNS: &str = "\
+Columns of the per-topic table (JSON: coherence.per_topic, names in full):
+  umass       UMass coherence (Mimno et al. 2011): over pairs of top words, the sum of
+              ln((documents with both + 1) / documents with the higher-ranked one);
+              0 or below, closer to 0 is more coherent
+  npmi        mean normalised pointwise mutual information of pairs of top words in
+              sliding windows (--npmi-window): -1 never together, 0 independent,
+              1 always together
+  cv          C_V coherence (Roeder et al. 2015) in windows of --cv-window tokens:
+              mean cosine of NPMI context vectors, -1 to 1, higher is more coherent
+  share       token_share: the topic's share of all tokens
+  prevalence  document_prevalence: the share of documents whose largest topic it is
+  eff.words   effective_words: exp of the entropy of the topic's word distribution,
+              the number of equally likely words as spread out (n if even over n)
+  distinct    distinctiveness: Kullback-Leibler divergence of the topic's words from
+              the corpus word frequencies, in nats (0: it only repeats them)
+  exclusiv    exclusivity: mean over the top words of the word's weight in this topic
+              over its weight summed across topics (1: no other topic uses them)";
+
 /// Arguments of `themata score`.
 #[derive(clap::Args, Debug)]
+#[command(after_help = TABLE_COLUMNS)]
 pub struct ScoreArgs {
     /// Model folder written by `themata fit` or `themata run`
     #[arg(value_name = "DIR")]
@@ -32,28 +54,39 @@ pub struct ScoreArgs {
     #[arg(long, value_enum, default_value_t = Method::Completion)]
     pub method: Method,
     /// Particles of the left-to-right estimator
-    #[arg(long, value_name = "R", default_value_t = ScoreSettings::default().particles)]
+    #[arg(long, value_name = "R", default_value_t = ScoreSettings::default().particles, value_parser = AT_LEAST_ONE.parser::<usize>())]
     pub particles: usize,
     /// Corpus file whose documents give the coherence probabilities [default: the training corpus]
     #[arg(long, value_name = "CORPUS")]
     pub reference: Option<PathBuf>,
     /// Top words per topic that coherence is computed over
-    #[arg(long, value_name = "M", default_value_t = 10)]
+    #[arg(long, value_name = "M", default_value_t = 10, value_parser = WholeRange::at_least(2).parser::<usize>())]
     pub top_words: usize,
     /// Sliding window of NPMI, in tokens (a document shorter than the window is one window)
-    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().npmi_window)]
+    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().npmi_window, value_parser = WholeRange::at_least(2).parser::<usize>())]
     pub npmi_window: usize,
     /// Sliding window of C_V, in tokens
-    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().cv_window)]
+    #[arg(long, value_name = "N", default_value_t = CoherenceSettings::default().cv_window, value_parser = WholeRange::at_least(2).parser::<usize>())]
     pub cv_window: usize,
-    /// Output layout (table or json)
-    #[arg(long, value_enum, default_value_t = ListingFormat::Table)]
-    pub format: ListingFormat,
+    /// Output layout
+    #[arg(long, value_enum, default_value_t = ScoreFormat::Table)]
+    pub format: ScoreFormat,
     #[command(flatten)]
     pub records: RecordOptions,
     /// Seed of the scoring random streams
-    #[arg(long, value_name = "S", default_value_t = 1)]
+    #[arg(long, value_name = "S", default_value_t = 1, value_parser = ANY_WHOLE.parser::<u64>())]
     pub seed: u64,
+    #[command(flatten)]
+    pub precision: PrecisionOptions,
+}
+
+/// Output layouts of `score`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum ScoreFormat {
+    /// A summary line and an aligned table of the topics.
+    Table,
+    /// One JSON object.
+    Json,
 }
 
 /// The JSON object `score --format json` prints.
@@ -73,11 +106,6 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
     if args.particles == 0 {
         return Err(Failure::bad_input(anyhow::anyhow!(
             "--particles must be at least 1"
-        )));
-    }
-    if args.format == ListingFormat::Tsv {
-        return Err(Failure::bad_input(anyhow::anyhow!(
-            "score prints --format table or json"
         )));
     }
     let model = load_model(&args.dir)?;
@@ -110,11 +138,13 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
         coherence,
     };
     match args.format {
-        ListingFormat::Json => {
-            let text = serde_json::to_string_pretty(&output).map_err(Failure::system)?;
-            println!("{text}");
+        ScoreFormat::Json => {
+            let mut value = serde_json::to_value(&output).map_err(Failure::system)?;
+            args.precision.resolve().round_json(&mut value);
+            let text = serde_json::to_string_pretty(&value).map_err(Failure::system)?;
+            say!("{text}")?;
         }
-        _ => print_table(&output),
+        ScoreFormat::Table => print_table(&output)?,
     }
     Ok(())
 }
@@ -139,17 +169,27 @@ fn heldout_documents(model: &Model, args: &ScoreArgs) -> Result<Vec<EncodedDocum
     let options = args.records.resolve()?;
     let mut documents = Vec::new();
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
-    read::read_documents(&args.heldout, &options, &mut diagnostics, &mut |raw| {
-        documents.push(score::encode_text(
-            &tokenizer,
-            &model.corpus.vocabulary,
-            &raw.id,
-            &raw.text,
-        ));
-    })
-    .map_err(Failure::bad_input)?;
+    let mut warnings: Vec<String> = Vec::new();
+    read::read_documents(
+        &args.heldout,
+        &options,
+        &mut diagnostics,
+        &mut warnings,
+        &mut |raw| {
+            documents.push(score::encode_text(
+                &tokenizer,
+                &model.corpus.vocabulary,
+                &raw.id,
+                &raw.text,
+            ));
+        },
+    )
+    .map_err(super::record_read_failure)?;
     for diagnostic in &diagnostics {
         eprintln!("themata: skipped: {diagnostic}");
+    }
+    for warning in &warnings {
+        eprintln!("themata: warning: {warning}");
     }
     Ok(documents)
 }
@@ -207,9 +247,9 @@ fn coherence(model: &Model, args: &ScoreArgs) -> Result<CoherenceReport, Failure
     result.map_err(Failure::bad_input)
 }
 
-fn print_table(output: &ScoreOutput) {
+fn print_table(output: &ScoreOutput) -> Result<(), Failure> {
     match output.heldout_perplexity {
-        Some(perplexity) => println!(
+        Some(perplexity) => say!(
             "held-out perplexity {perplexity:.3} ({}; {} tokens scored in {} documents, {} unknown tokens, {} documents with no known word)",
             match output.method {
                 Some(Method::LeftToRight) => "left-to-right",
@@ -219,20 +259,33 @@ fn print_table(output: &ScoreOutput) {
             output.heldout_documents,
             output.unknown_tokens,
             output.documents_without_known_words
-        ),
-        None => println!("held-out perplexity: not computed (pass --heldout INPUT)"),
+        )?,
+        None => say!("held-out perplexity: not computed (pass --heldout INPUT)")?,
     }
     let c = &output.coherence;
-    println!(
+    say!(
         "coherence over the top {} words: UMass {:.3}, NPMI {:.3} (window {}), C_V {:.3} (window {})",
-        c.top_words, c.umass, c.npmi, c.npmi_window, c.cv, c.cv_window
-    );
-    println!(
+        c.top_words,
+        c.umass,
+        c.npmi,
+        c.npmi_window,
+        c.cv,
+        c.cv_window
+    )?;
+    say!(
         "{:>5}  {:>7}  {:>6}  {:>6}  {:>6}  {:>10}  {:>9}  {:>8}  {:>8}  top words",
-        "topic", "umass", "npmi", "cv", "share", "prevalence", "eff.words", "distinct", "exclusiv"
-    );
+        "topic",
+        "umass",
+        "npmi",
+        "cv",
+        "share",
+        "prevalence",
+        "eff.words",
+        "distinct",
+        "exclusiv"
+    )?;
     for row in &c.per_topic {
-        println!(
+        say!(
             "{:>5}  {:>7.3}  {:>6.3}  {:>6.3}  {:>5.1}%  {:>9.1}%  {:>9.1}  {:>8.3}  {:>8.3}  {}",
             row.topic,
             row.umass,
@@ -249,6 +302,7 @@ fn print_table(output: &ScoreOutput) {
                 .cloned()
                 .collect::<Vec<_>>()
                 .join(" ")
-        );
+        )?;
     }
+    Ok(())
 }

@@ -4,8 +4,8 @@ use std::io::Write;
 use std::path::PathBuf;
 
 use themata::evaluate::uncertainty::DEFAULT_LEVEL;
-use themata::report::{self, ListingFormat, WordLimit};
-use themata::settings::DEFAULT_TOP_WORDS;
+use themata::report::{self, DocumentView, ListingFormat, WordLimit};
+use themata::settings::{DEFAULT_TOP_WORDS, ListingOptions};
 
 use themata::model::folder::load_model;
 
@@ -30,19 +30,24 @@ pub struct ShowArgs {
     /// Probability of the credible intervals shown beside shares and weights
     #[arg(long, value_name = "P", default_value_t = DEFAULT_LEVEL, value_parser = parse_level)]
     pub interval: f64,
+    #[command(flatten, next_help_heading = "Document listing (with --documents)")]
+    pub listing: ListingOptions,
 }
 
 /// Runs `themata show`.
 pub fn run(args: ShowArgs) -> Result<(), Failure> {
+    let plan = args.listing.resolve()?;
     let model = load_model(&args.dir)?;
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     let written = if args.documents {
-        let documents = report::document_listings(&model, args.interval).map_err(Failure::bad_input)?;
-        report::write_documents(&mut out, &documents, args.format)
+        let rows = report::document_rows(&model, plan.selection, args.interval, plan.merge_chunks)
+            .map_err(Failure::bad_input)?;
+        let view = DocumentView::of(&plan, model.n_topics());
+        report::write_documents(&mut out, &rows, args.format, &view)
     } else {
         let topics = report::topic_listings(&model, args.words, args.interval).map_err(Failure::bad_input)?;
-        report::write_topics(&mut out, &topics, args.format)
+        report::write_topics(&mut out, &topics, args.format, plan.numbers)
     };
     written
         .and_then(|()| out.flush())

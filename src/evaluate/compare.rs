@@ -1,10 +1,14 @@
 //! Comparing distributions and partitions: Jensen-Shannon distance between
 //! topics, minimum-cost matching of one model's topics to another's
 //! (Hungarian method), and normalised mutual information between two
-//! labellings of the same documents.
+//! labellings of the same documents (and of a model's top topics against
+//! its documents' labels).
 
 use pathfinding::kuhn_munkres::kuhn_munkres_min;
 use pathfinding::matrix::Matrix;
+use serde::Serialize;
+
+use crate::model::Model;
 
 /// Jensen-Shannon distance (the square root of the divergence, natural log)
 /// between two distributions over the same support. Between 0 and sqrt(ln 2).
@@ -120,6 +124,54 @@ pub fn normalized_mutual_information(a: &[usize], b: &[usize]) -> f64 {
     } else {
         (mutual / mean).clamp(0.0, 1.0)
     }
+}
+
+/// How well documents' top topics agree with their labels.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct LabelAgreement {
+    /// Normalised mutual information (arithmetic-mean normalisation).
+    pub nmi: f64,
+    /// Labelled documents compared.
+    pub documents: usize,
+    /// Distinct labels among them.
+    pub labels: usize,
+}
+
+/// Index of the largest share (first on ties).
+pub fn top_topic(shares: &[f64]) -> usize {
+    let mut best = 0;
+    for (idx, &share) in shares.iter().enumerate() {
+        if share > shares[best] {
+            best = idx;
+        }
+    }
+    best
+}
+
+/// NMI between each labelled training document's top topic and its label;
+/// `None` when no document has a label.
+pub fn label_agreement(model: &Model) -> Option<LabelAgreement> {
+    let documents = &model.corpus.documents;
+    let mut names: Vec<&str> = documents.iter().filter_map(|d| d.label.as_deref()).collect();
+    names.sort_unstable();
+    names.dedup();
+    if names.is_empty() {
+        return None;
+    }
+    let (labels, topics): (Vec<usize>, Vec<usize>) = documents
+        .iter()
+        .enumerate()
+        .filter_map(|(doc_idx, doc)| {
+            let label = doc.label.as_deref()?;
+            let label_idx = names.binary_search(&label).ok()?;
+            Some((label_idx, top_topic(&model.doc_topic_shares(doc_idx))))
+        })
+        .unzip();
+    Some(LabelAgreement {
+        nmi: normalized_mutual_information(&labels, &topics),
+        documents: labels.len(),
+        labels: names.len(),
+    })
 }
 
 #[cfg(test)]

@@ -8,6 +8,8 @@
 //! held-out words; past the true structure the gains fall inside the noise
 //! of the estimate, and the smaller model is preferred.
 
+use std::sync::atomic::{AtomicUsize, Ordering};
+
 use rayon::prelude::*;
 use serde::Serialize;
 
@@ -65,14 +67,41 @@ pub struct KSearchRow {
     pub stability: Option<f64>,
 }
 
+/// Which end of the candidates the recommendation sits at, if either: then
+/// the best K may lie outside the range tried.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum RangeEdge {
+    /// The smallest candidate: fewer topics may do as well.
+    Smallest,
+    /// The largest candidate: more topics may do better.
+    Largest,
+}
+
 /// The sweep's table and recommendation.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct KSearchReport {
     pub rows: Vec<KSearchRow>,
     pub recommended_topics: usize,
     pub rule: String,
+    /// Set when the recommended K is the smallest or largest of two or more
+    /// candidates.
+    pub recommended_at_edge: Option<RangeEdge>,
     pub training_documents: usize,
     pub heldout_documents: usize,
+}
+
+/// One fit of the sweep has finished.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct FitDone {
+    pub topics: usize,
+    pub seed: u64,
+    /// Fits finished so far, this one included.
+    pub done: usize,
+    /// Fits in the whole sweep.
+    pub total: usize,
+    /// Its held-out perplexity.
+    pub heldout_perplexity: f64,
 }
 
 /// One fitted run of the sweep.
@@ -84,8 +113,13 @@ struct RunResult {
     phi: Vec<Vec<f64>>,
 }
 
-/// Fits every (K, seed) pair, spread over the current thread pool.
-pub fn run_k_search(corpus: &Corpus, settings: &KSearchSettings) -> Result<KSearchReport, KSearchError> {
+/// Fits every (K, seed) pair, spread over the current thread pool, calling
+/// `on_fit` (from whichever worker ran it) as each fit finishes.
+pub fn run_k_search(
+    corpus: &Corpus,
+    settings: &KSearchSettings,
+    on_fit: &(dyn Fn(FitDone) + Sync),
+) -> Result<KSearchReport, KSearchError> {
     let mask = score::holdout_mask(corpus, settings.holdout, 0x5eed);
     let (train, held) = score::split_corpus(corpus, &mask);
     if held.n_docs() == 0 {
@@ -105,6 +139,7 @@ pub fn run_k_search(corpus: &Corpus, settings: &KSearchSettings) -> Result<KSear
         .iter()
         .flat_map(|&k| settings.seeds.iter().map(move |&seed| (k, seed)))
         .collect();
+    let finished = AtomicUsize::new(0);
     let results: Vec<RunResult> = jobs
         .par_iter()
         .map(|&(topics, seed)| {
@@ -127,9 +162,17 @@ pub fn run_k_search(corpus: &Corpus, settings: &KSearchSettings) -> Result<KSear
                 .collect();
             let coherence =
                 score::coherence_report(&model, &documents, "training", &CoherenceSettings::default(), 10)?;
+            let perplexity = scored.heldout_perplexity.unwrap_or(f64::INFINITY);
+            on_fit(FitDone {
+                topics,
+                seed,
+                done: finished.fetch_add(1, Ordering::Relaxed) + 1,
+                total: jobs.len(),
+                heldout_perplexity: perplexity,
+            });
             Ok(RunResult {
                 topics,
-                perplexity: scored.heldout_perplexity.unwrap_or(f64::INFINITY),
+                perplexity,
                 npmi: coherence.npmi,
                 umass: coherence.umass,
                 phi: model.topic_word_matrix(),
@@ -151,9 +194,21 @@ pub fn run_k_search(corpus: &Corpus, settings: &KSearchSettings) -> Result<KSear
         .map(|r| r.topics)
         .min()
         .unwrap_or(settings.topics[0]);
+    let smallest = settings.topics.iter().min().copied();
+    let largest = settings.topics.iter().max().copied();
+    let recommended_at_edge = if settings.topics.len() < 2 {
+        None
+    } else if Some(recommended_topics) == largest {
+        Some(RangeEdge::Largest)
+    } else if Some(recommended_topics) == smallest {
+        Some(RangeEdge::Smallest)
+    } else {
+        None
+    };
     Ok(KSearchReport {
         rows,
         recommended_topics,
+        recommended_at_edge,
         rule: format!(
             "the smallest K whose mean held-out perplexity is within {:.0}% of the lowest",
             100.0 * PERPLEXITY_TOLERANCE
@@ -195,8 +250,8 @@ fn summarise(topics: usize, runs: Vec<&RunResult>) -> KSearchRow {
     }
 }
 
-/// The report as TSV: one line per K.
-pub fn to_tsv(report: &KSearchReport) -> String {
+/// The report as TSV: one line per K, real numbers written by `number`.
+pub fn to_tsv(report: &KSearchReport, number: &dyn Fn(f64) -> String) -> String {
     let mut out = String::from(
         "topics\tseeds\theldout_perplexity\tperplexity_sd\tnpmi\tumass\tstability\trecommended\n",
     );
@@ -205,11 +260,11 @@ pub fn to_tsv(report: &KSearchReport) -> String {
             "{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\n",
             row.topics,
             row.seeds,
-            row.heldout_perplexity,
-            row.perplexity_sd,
-            row.npmi,
-            row.umass,
-            row.stability.map_or(String::new(), |s| s.to_string()),
+            number(row.heldout_perplexity),
+            number(row.perplexity_sd),
+            number(row.npmi),
+            number(row.umass),
+            row.stability.map_or(String::new(), number),
             row.topics == report.recommended_topics
         ));
     }

@@ -14,7 +14,7 @@ use serde::Serialize;
 use crate::evaluate::coherence::{self, CoherenceError, CoherenceSettings};
 use crate::evaluate::diagnostics::{self, DiagnosticsError, TopicRows};
 use crate::evaluate::heldout::{self, FoldInSettings, HeldOutError};
-use crate::evaluate::uncertainty::{self, UncertaintyError};
+use crate::evaluate::uncertainty::{self, Interval, UncertaintyError};
 use crate::fitting::sampler::splitmix64;
 use crate::ingest::corpus::Corpus;
 use crate::ingest::tokenize::Tokenizer;
@@ -289,32 +289,54 @@ pub fn align_corpus(corpus: &Corpus, vocabulary: &Vocabulary) -> Option<Vec<Enco
     )
 }
 
-/// A document placed in the model.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+/// A document placed in the model: its mean shares and the fold-in counts
+/// its credible intervals come from (computed per topic on demand, since
+/// they cost far more than the shares).
+#[derive(Clone, Debug, PartialEq)]
 pub struct Placement {
     pub document: String,
+    /// Tokens of words the model knows.
     pub tokens: usize,
+    /// Tokens of words the model does not know (dropped).
     pub unknown_tokens: usize,
-    /// True when no word of the document is known: the shares are then only the prior.
+    /// True when no word of the document is known: the shares are then only
+    /// the prior, and the document is not placed.
     pub no_known_words: bool,
+    /// Mean of `(n_dk + alpha_k) / (n_d + a0)` over the kept fold-in samples.
     pub shares: Vec<f64>,
-    pub low: Vec<f64>,
-    pub high: Vec<f64>,
+    /// `n_dk` of each kept fold-in sample.
+    pub counts: Vec<Vec<u32>>,
 }
 
-/// Folds a new document into the model with the topics fixed and gives its
-/// shares with credible intervals at `level` (a mixture over the kept
-/// fold-in samples of the Beta marginals of Dirichlet(alpha + n_d)).
+impl Placement {
+    /// The credible interval at `level` of topic `topic_idx`'s share: a
+    /// mixture over the kept fold-in samples of the Beta marginals of
+    /// Dirichlet(alpha + n_d).
+    pub fn interval(&self, alpha: &[f64], topic_idx: usize, level: f64) -> Result<Interval, ScoreError> {
+        let a0: f64 = alpha.iter().sum();
+        let n = self.tokens as f64;
+        let components: Vec<(f64, f64)> = self
+            .counts
+            .iter()
+            .map(|counts| (f64::from(counts[topic_idx]) + alpha[topic_idx], n + a0))
+            .collect();
+        uncertainty::mixture_share_interval(&components, level).map_err(|source| ScoreError::Interval {
+            document: self.document.clone(),
+            source,
+        })
+    }
+}
+
+/// Folds a new document into the model with the topics fixed: its shares
+/// and the fold-in samples behind them.
 pub fn place(
     model: &Model,
     weights: &TopicWeights<'_>,
     doc: &EncodedDocument,
     fold_in: &FoldInSettings,
-    level: f64,
     rng: &mut Xoshiro256PlusPlus,
 ) -> Result<Placement, ScoreError> {
     let alpha = &model.priors.alpha;
-    let a0: f64 = alpha.iter().sum();
     let folded = weights
         .with_document(&doc.tokens, |tokens, phi| {
             heldout::fold_in(tokens, phi, alpha, fold_in, rng)
@@ -323,32 +345,13 @@ pub fn place(
             document: doc.id.clone(),
             source,
         })?;
-    let n = doc.tokens.len() as f64;
-    let mut low = Vec::with_capacity(alpha.len());
-    let mut high = Vec::with_capacity(alpha.len());
-    for (topic_idx, &alpha_k) in alpha.iter().enumerate() {
-        let components: Vec<(f64, f64)> = folded
-            .counts
-            .iter()
-            .map(|counts| (f64::from(counts[topic_idx]) + alpha_k, n + a0))
-            .collect();
-        let interval = uncertainty::mixture_share_interval(&components, level).map_err(|source| {
-            ScoreError::Interval {
-                document: doc.id.clone(),
-                source,
-            }
-        })?;
-        low.push(interval.low);
-        high.push(interval.high);
-    }
     Ok(Placement {
         document: doc.id.clone(),
         tokens: doc.tokens.len(),
         unknown_tokens: doc.unknown_tokens,
         no_known_words: doc.tokens.is_empty(),
         shares: folded.mean_shares,
-        low,
-        high,
+        counts: folded.counts,
     })
 }
 
@@ -515,7 +518,7 @@ pub fn coherence_report<D: AsRef<[u32]> + Sync>(
             topic: score.topic,
             top_words: top[score.topic]
                 .iter()
-                .map(|&w| model.corpus.vocabulary.word(w).to_string())
+                .map(|&w| model.corpus.vocabulary.display(w).to_string())
                 .collect(),
             umass: score.umass,
             npmi: score.npmi,
@@ -576,10 +579,12 @@ mod tests {
                         weights,
                         doc,
                         &FoldInSettings::default(),
-                        0.9,
                         &mut document_rng(5, idx),
                     )
                     .unwrap();
+                    let low: Vec<f64> = (0..model.n_topics())
+                        .map(|topic| placed.interval(&model.priors.alpha, topic, 0.9).unwrap().low)
+                        .collect();
                     let completion = weights
                         .with_document(&doc.tokens, |tokens, phi| {
                             heldout::completion_log_likelihood(
@@ -593,12 +598,7 @@ mod tests {
                         .unwrap();
                     (
                         completion.log_likelihood.to_bits(),
-                        placed
-                            .shares
-                            .iter()
-                            .chain(&placed.low)
-                            .map(|v| v.to_bits())
-                            .collect(),
+                        placed.shares.iter().chain(&low).map(|v| v.to_bits()).collect(),
                     )
                 })
                 .collect()

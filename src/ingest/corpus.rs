@@ -87,6 +87,60 @@ pub struct BuildSettings {
     pub read: ReadOptions,
     pub tokenizer: TokenizerSettings,
     pub prune: PruneRules,
+    /// Cut documents longer than this many tokens into chunks of it (see
+    /// [`chunk_id`]); `None` keeps every document whole.
+    pub split_every: Option<usize>,
+}
+
+/// A build warns about a document holding more than this share of all
+/// tokens (and more than twice the share an even split would give it): it
+/// shapes topics on its own.
+pub const LARGE_DOCUMENT_SHARE: f64 = 0.2;
+
+/// Separates a document's id from its chunk number in chunk ids.
+pub const CHUNK_SEPARATOR: char = '#';
+
+/// The id of chunk `number` (from 1) of document `id`: `id#number`.
+pub fn chunk_id(id: &str, number: usize) -> String {
+    format!("{id}{CHUNK_SEPARATOR}{number}")
+}
+
+/// The documents of `corpus` with their chunks gathered: for each document
+/// as read, its id and the range of corpus documents it became (one, or its
+/// chunks `id#1`, `id#2`, ... when it was split). Chunks are told by what
+/// only splitting makes: consecutive documents read from the same place
+/// (file and line) whose ids are one id with `#1`, `#2`, ... appended.
+pub fn chunk_groups(corpus: &Corpus) -> Vec<(String, std::ops::Range<usize>)> {
+    let documents = &corpus.documents;
+    let mut groups = Vec::new();
+    let mut doc_idx = 0;
+    while doc_idx < documents.len() {
+        let first = &documents[doc_idx];
+        let parent = first.id.strip_suffix(&format!("{CHUNK_SEPARATOR}1")).filter(|_| {
+            documents
+                .get(doc_idx + 1)
+                .is_some_and(|next| next.source == first.source)
+        });
+        let mut end = doc_idx + 1;
+        if let Some(parent) = parent {
+            while end < documents.len()
+                && documents[end].source == first.source
+                && documents[end].id == chunk_id(parent, end - doc_idx + 1)
+            {
+                end += 1;
+            }
+        }
+        let id = match parent {
+            Some(parent) if end - doc_idx > 1 => parent.to_string(),
+            _ => {
+                end = doc_idx + 1;
+                first.id.clone()
+            }
+        };
+        groups.push((id, doc_idx..end));
+        doc_idx = end;
+    }
+    groups
 }
 
 /// What happened during a build, for the summary and the report.
@@ -108,6 +162,14 @@ pub struct BuildSummary {
     pub vocabulary: usize,
     /// How pruning shrank the vocabulary.
     pub pruning: PruneReport,
+    /// Documents cut into chunks by `--split-every` (each chunk is counted
+    /// in `documents_kept`).
+    #[serde(default, skip_serializing_if = "is_zero")]
+    pub documents_split: usize,
+    /// What is worth saying once about the inputs (a named field no record
+    /// has, a document that holds a large share of all tokens).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub warnings: Vec<String>,
 }
 
 /// Problems that stop a build.
@@ -117,10 +179,54 @@ pub enum CorpusError {
     Read(#[from] ReadError),
     #[error(transparent)]
     Tokenize(#[from] TokenizeError),
+    /// Every document was skipped; the summary says why (per reason, and
+    /// how many words each pruning rule removed) and lists them.
     #[error(
-        "no document has any words left ({read} read, {skipped} skipped); check the inputs, the text field and the pruning settings"
+        "no document has any words left ({}); check the inputs, the text field and the pruning settings",
+        .summary.describe()
     )]
-    Empty { read: usize, skipped: usize },
+    Empty { summary: Box<BuildSummary> },
+}
+
+fn is_zero(value: &usize) -> bool {
+    *value == 0
+}
+
+impl BuildSummary {
+    /// Skipped documents per reason, e.g. `empty 1, no_tokens 3`.
+    pub fn skipped_reasons(&self) -> String {
+        self.skipped
+            .iter()
+            .map(|(reason, count)| format!("{reason} {count}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    }
+
+    /// What was read, kept and skipped (per reason), and how pruning shrank
+    /// the vocabulary, in one line.
+    pub fn describe(&self) -> String {
+        let skipped: usize = self.skipped.values().sum();
+        let reasons = if self.skipped.is_empty() {
+            String::new()
+        } else {
+            format!(": {}", self.skipped_reasons())
+        };
+        let pruning = &self.pruning;
+        format!(
+            "{} read, {} kept, {} skipped{reasons}; {} of {} tokens kept; vocabulary {} of {} words seen, dropped: {} too rare, {} too common, {} over the cap, {} listed",
+            self.documents_read,
+            self.documents_kept,
+            skipped,
+            self.tokens,
+            self.tokens_before_pruning,
+            self.vocabulary,
+            pruning.words_seen,
+            pruning.too_rare,
+            pruning.too_common,
+            pruning.over_cap,
+            pruning.dropped_by_list
+        )
+    }
 }
 
 fn kind_name(kind: DiagnosticKind) -> String {
@@ -139,28 +245,69 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
     let mut tokens: Vec<u32> = Vec::new();
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
     let mut no_tokens: Vec<Diagnostic> = Vec::new();
-    let counts = read::read_documents(inputs, &settings.read, &mut diagnostics, &mut |doc| {
-        let start = tokens.len();
-        vocab.start_document();
-        tokenizer.for_each_token(&doc.text, &mut |token| tokens.push(vocab.add_token(token)));
-        if tokens.len() == start {
-            vocab.remove_document(&[]);
-            no_tokens.push(Diagnostic {
-                kind: DiagnosticKind::NoTokens,
-                origin: doc.origin.clone(),
-                document: Some(doc.id.clone()),
-                message: format!("document `{}` has no tokens after tokenizing", doc.id),
-            });
-            return;
-        }
-        offsets.push(tokens.len() as u64);
-        documents.push(DocumentInfo {
-            id: doc.id,
-            label: doc.label,
-            date: doc.date,
-            source: doc.origin.to_string(),
-        });
-    })?;
+    let mut warnings: Vec<String> = Vec::new();
+    let mut documents_split = 0usize;
+    let counts = read::read_documents(
+        inputs,
+        &settings.read,
+        &mut diagnostics,
+        &mut warnings,
+        &mut |doc| {
+            let start = tokens.len();
+            vocab.start_document();
+            // Chunk boundaries: a new chunk (a new document for the
+            // vocabulary's counts) starts every `split_every` tokens.
+            let mut boundaries = vec![start];
+            let mut next_chunk = |tokens: &Vec<u32>, vocab: &mut VocabBuilder| {
+                if let Some(every) = settings.split_every
+                    && tokens.len() - boundaries[boundaries.len() - 1] == every
+                {
+                    boundaries.push(tokens.len());
+                    vocab.start_document();
+                }
+            };
+            if tokenizer.stems() {
+                tokenizer.for_each_token_with_surface(&doc.text, &mut |token, surface| {
+                    next_chunk(&tokens, &mut vocab);
+                    tokens.push(vocab.add_token_with_surface(token, surface));
+                });
+            } else {
+                tokenizer.for_each_token(&doc.text, &mut |token| {
+                    next_chunk(&tokens, &mut vocab);
+                    tokens.push(vocab.add_token(token));
+                });
+            }
+            if tokens.len() == start {
+                vocab.remove_document(&[]);
+                no_tokens.push(Diagnostic {
+                    kind: DiagnosticKind::NoTokens,
+                    origin: doc.origin.clone(),
+                    document: Some(doc.id.clone()),
+                    message: format!("document `{}` has no tokens after tokenizing", doc.id),
+                });
+                return;
+            }
+            boundaries.push(tokens.len());
+            let chunks = boundaries.len() - 1;
+            if chunks > 1 {
+                documents_split += 1;
+            }
+            let source = doc.origin.to_string();
+            for (number, &end) in boundaries.iter().enumerate().skip(1) {
+                offsets.push(end as u64);
+                documents.push(DocumentInfo {
+                    id: if chunks > 1 {
+                        chunk_id(&doc.id, number)
+                    } else {
+                        doc.id.clone()
+                    },
+                    label: doc.label.clone(),
+                    date: doc.date.clone(),
+                    source: source.clone(),
+                });
+            }
+        },
+    )?;
     diagnostics.append(&mut no_tokens);
     let tokens_before_pruning = tokens.len();
     let (vocabulary, remap, pruning) = vocab.finish(&settings.prune);
@@ -196,18 +343,15 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
     }
     tokens.truncate(write);
     tokens.shrink_to_fit();
+    warnings.extend(large_documents(&kept_docs, &new_offsets, settings.split_every));
 
     let mut skipped = BTreeMap::new();
     for diagnostic in &diagnostics {
         *skipped.entry(kind_name(diagnostic.kind)).or_insert(0) += 1;
     }
-    if kept_docs.is_empty() {
-        return Err(CorpusError::Empty {
-            read: counts.records_seen,
-            skipped: diagnostics.len(),
-        });
-    }
     let summary = BuildSummary {
+        warnings,
+        documents_split,
         documents_read: counts.records_seen,
         documents_kept: kept_docs.len(),
         skipped,
@@ -217,6 +361,11 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
         vocabulary: vocabulary.len(),
         pruning,
     };
+    if kept_docs.is_empty() {
+        return Err(CorpusError::Empty {
+            summary: Box::new(summary),
+        });
+    }
     let corpus = Corpus {
         tokenizer: settings.tokenizer.clone(),
         vocabulary,
@@ -225,6 +374,41 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
         tokens,
     };
     Ok((corpus, summary))
+}
+
+/// Warnings about documents that hold more than [`LARGE_DOCUMENT_SHARE`] of
+/// all tokens and more than twice an even share.
+fn large_documents(documents: &[DocumentInfo], offsets: &[u64], split_every: Option<usize>) -> Vec<String> {
+    let total = offsets.last().copied().unwrap_or(0) as f64;
+    if total == 0.0 {
+        return Vec::new();
+    }
+    let even = 1.0 / documents.len() as f64;
+    let threshold = LARGE_DOCUMENT_SHARE.max(2.0 * even);
+    let advice = match split_every {
+        Some(every) => {
+            format!("it is still longer than the others; a smaller --split-every than {every} cuts it finer")
+        }
+        None => {
+            "cut long documents into chunks with --split-every N (split_every in a config file), e.g. 500"
+                .to_string()
+        }
+    };
+    documents
+        .iter()
+        .enumerate()
+        .filter_map(|(doc_idx, info)| {
+            let length = offsets[doc_idx + 1] - offsets[doc_idx];
+            let share = length as f64 / total;
+            (share > threshold).then(|| {
+                format!(
+                    "document `{}` holds {:.0}% of all tokens ({length} of {total}); one document this large shapes topics on its own: {advice}",
+                    info.id,
+                    100.0 * share
+                )
+            })
+        })
+        .collect()
 }
 
 fn parse_origin(source: &str) -> Origin {
@@ -237,5 +421,89 @@ fn parse_origin(source: &str) -> Origin {
             file: source.to_string(),
             line: None,
         },
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn settings(split_every: Option<usize>) -> BuildSettings {
+        BuildSettings {
+            read: ReadOptions::default(),
+            tokenizer: TokenizerSettings::default()
+                .with_length_bounds(1, 40)
+                .with_stopwords(Vec::new(), vec!["none".into()]),
+            prune: PruneRules {
+                min_docs: 1,
+                max_doc_share: 1.0,
+                ..PruneRules::default()
+            },
+            split_every,
+        }
+    }
+
+    /// One long document (25 tokens) and two short ones (3 tokens each).
+    fn inputs(folder: &std::path::Path) -> Vec<PathBuf> {
+        let long: Vec<String> = (0..25).map(|idx| format!("w{}", idx % 7)).collect();
+        let lines = [
+            serde_json::json!({"id": "long", "text": long.join(" "), "label": "big"}),
+            serde_json::json!({"id": "b", "text": "w1 w2 w3"}),
+            serde_json::json!({"id": "c", "text": "w4 w5 w6"}),
+        ];
+        let text: String = lines.iter().map(|line| format!("{line}\n")).collect();
+        let path = folder.join("docs.jsonl");
+        std::fs::write(&path, text).unwrap();
+        vec![path]
+    }
+
+    #[test]
+    fn a_document_holding_most_tokens_is_warned_about() {
+        // Source: issue 11, item 5 — warn when one document holds more than
+        // a stated share of the tokens (here 25 of 31, above 20% and above
+        // twice the even share of 1/3).
+        let folder = tempfile::tempdir().unwrap();
+        let (corpus, summary) = build(&inputs(folder.path()), &settings(None)).unwrap();
+        assert_eq!(corpus.n_docs(), 3);
+        assert_eq!(summary.warnings.len(), 1, "{:?}", summary.warnings);
+        assert!(
+            summary.warnings[0].starts_with("document `long` holds 81% of all tokens (25 of 31)"),
+            "{}",
+            summary.warnings[0]
+        );
+        assert!(summary.warnings[0].contains("--split-every"));
+    }
+
+    #[test]
+    fn split_every_cuts_chunks_named_after_their_document() {
+        // Source: issue 11, item 5 — chunks of N tokens, ids derived from the
+        // document id; each chunk is a document of its own (the last one
+        // shorter), and chunk_groups finds them again.
+        let folder = tempfile::tempdir().unwrap();
+        let (corpus, summary) = build(&inputs(folder.path()), &settings(Some(10))).unwrap();
+        let ids: Vec<&str> = corpus.documents.iter().map(|d| d.id.as_str()).collect();
+        assert_eq!(ids, ["long#1", "long#2", "long#3", "b", "c"]);
+        let lengths: Vec<usize> = (0..corpus.n_docs()).map(|d| corpus.doc_tokens(d).len()).collect();
+        assert_eq!(lengths, [10, 10, 5, 3, 3]);
+        assert!(
+            corpus.documents[..3]
+                .iter()
+                .all(|d| d.label.as_deref() == Some("big"))
+        );
+        assert_eq!(summary.documents_split, 1);
+        assert_eq!(summary.documents_kept, 5);
+        assert_eq!(summary.documents_read, 3);
+        assert_eq!(
+            chunk_groups(&corpus),
+            [
+                ("long".to_string(), 0..3),
+                ("b".to_string(), 3..4),
+                ("c".to_string(), 4..5)
+            ]
+        );
+        // Documents with chunk-like ids that were not split stay whole.
+        let mut lookalike = corpus.clone();
+        lookalike.documents[3].id = "b#1".into();
+        assert_eq!(chunk_groups(&lookalike)[1], ("b#1".to_string(), 3..4));
     }
 }

@@ -158,6 +158,10 @@ impl Vocabulary {
 /// Gathers counts for words seen while reading; words get provisional ids in
 /// first-seen order, so documents can be stored as small integers before the
 /// final vocabulary is known.
+///
+/// When tokens are stems, [`VocabBuilder::add_token_with_surface`] also
+/// counts the words each stem was made from, and the most frequent of them
+/// (ties to the first in byte order) becomes the stem's surface form.
 #[derive(Debug, Default)]
 pub struct VocabBuilder {
     provisional: HashMap<String, u32>,
@@ -167,6 +171,9 @@ pub struct VocabBuilder {
     last_doc: Vec<u32>,
     documents: u32,
     serial: u32,
+    /// Per provisional id, the surface forms seen with their counts (kept
+    /// only when surfaces are added; a stem has few forms, so a short list).
+    surfaces: Vec<Vec<(String, u64)>>,
 }
 
 impl VocabBuilder {
@@ -202,6 +209,36 @@ impl VocabBuilder {
             self.doc_counts[slot] += 1;
         }
         id
+    }
+
+    /// [`VocabBuilder::add_token`] for a stem, counting the word it was
+    /// made from as one of its surface forms.
+    pub fn add_token_with_surface(&mut self, token: &str, surface: &str) -> u32 {
+        let id = self.add_token(token);
+        let slot = id as usize;
+        if self.surfaces.len() <= slot {
+            self.surfaces.resize_with(slot + 1, Vec::new);
+        }
+        let forms = &mut self.surfaces[slot];
+        match forms.iter_mut().find(|(form, _)| form == surface) {
+            Some((_, count)) => *count += 1,
+            None => forms.push((surface.to_string(), 1)),
+        }
+        id
+    }
+
+    /// The surface form of provisional id `slot`: the most frequent, ties
+    /// to the first in byte order; the word itself when none was counted.
+    fn surface_of(&self, slot: usize) -> String {
+        self.surfaces
+            .get(slot)
+            .and_then(|forms| {
+                forms
+                    .iter()
+                    .max_by(|a, b| a.1.cmp(&b.1).then_with(|| b.0.cmp(&a.0)))
+                    .map(|(form, _)| form.clone())
+            })
+            .unwrap_or_else(|| self.words[slot].clone())
     }
 
     /// Forgets the counts of a document that will not be kept (its tokens by
@@ -284,8 +321,23 @@ impl VocabBuilder {
             word_counts.push(self.word_counts[id as usize]);
             doc_counts.push(self.doc_counts[id as usize]);
         }
+        // Surface forms are kept only when some word differs from its own
+        // (with stemming), so a corpus without stems stores none.
+        let surface_forms: Vec<String> = if self.surfaces.is_empty() {
+            Vec::new()
+        } else {
+            candidates
+                .iter()
+                .map(|&id| self.surface_of(id as usize))
+                .collect()
+        };
+        let surface_forms = if surface_forms.iter().zip(&words).all(|(form, word)| form == word) {
+            Vec::new()
+        } else {
+            surface_forms
+        };
         (
-            Vocabulary::from_parts(words, word_counts, doc_counts),
+            Vocabulary::from_parts(words, word_counts, doc_counts).with_surface_forms(surface_forms),
             remap,
             report,
         )
@@ -395,6 +447,38 @@ mod tests {
         assert_eq!(words(&vocabulary), ["y", "x", "z"]);
         assert_eq!(remap, vec![Some(2), Some(0), Some(1)]);
         assert_eq!(vocabulary.id("x"), Some(1));
+    }
+
+    #[test]
+    fn a_stem_is_shown_as_its_most_frequent_word() {
+        // Source: issue 11, item 8 — keep, per stem, its most frequent
+        // surface form and show it; the stem stays the key. Ties go to the
+        // first in byte order (common practice: a stable choice).
+        let mut builder = VocabBuilder::new();
+        builder.start_document();
+        for (stem, word) in [
+            ("cattl", "cattle"),
+            ("ordin", "ordinance"),
+            ("ordin", "ordinances"),
+            ("ordin", "ordinances"),
+            ("boat", "boats"),
+            ("boat", "boat"),
+        ] {
+            builder.add_token_with_surface(stem, word);
+        }
+        let (vocabulary, _, _) = builder.finish(&rules());
+        let shown = |stem: &str| vocabulary.display(vocabulary.id(stem).unwrap()).to_string();
+        assert_eq!(shown("ordin"), "ordinances");
+        assert_eq!(shown("cattl"), "cattle");
+        assert_eq!(shown("boat"), "boat");
+        assert_eq!(vocabulary.id("ordinances"), None, "the stem stays the key");
+        // Without stems (every surface the word itself) none are stored.
+        let mut plain = VocabBuilder::new();
+        plain.start_document();
+        plain.add_token_with_surface("harbour", "harbour");
+        let (vocabulary, _, _) = plain.finish(&rules());
+        assert!(vocabulary.surface_forms().is_empty());
+        assert_eq!(vocabulary.display(0), "harbour");
     }
 
     #[test]

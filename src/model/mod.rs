@@ -17,6 +17,7 @@ pub mod folder;
 pub mod format;
 pub mod summary;
 
+use std::ops::Range;
 use std::path::Path;
 
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -114,11 +115,19 @@ pub(crate) fn sparse_counts(state: &CountState, corpus: &Corpus) -> (SparseRows,
 
 /// The `(a_k, A)` pair of one document's topic share in each sample: the
 /// Beta marginal of its Dirichlet(alpha + n_d) posterior.
-fn share_components(samples: &[Sample], doc_idx: usize, topic_idx: usize, doc_len: f64) -> Vec<(f64, f64)> {
+fn share_components(
+    samples: &[Sample],
+    docs: Range<usize>,
+    topic_idx: usize,
+    doc_len: f64,
+) -> Vec<(f64, f64)> {
     samples
         .iter()
         .map(|sample| {
-            let count = Sample::count(&sample.doc_topic[doc_idx], topic_idx);
+            let count: u32 = docs
+                .clone()
+                .map(|doc_idx| Sample::count(&sample.doc_topic[doc_idx], topic_idx))
+                .sum();
             (
                 f64::from(count) + sample.priors.alpha[topic_idx],
                 doc_len + sample.priors.alpha_sum(),
@@ -322,8 +331,15 @@ impl Model {
     /// Document-topic shares `theta_dk = (n_dk + alpha_k) / (n_d + a0)` of one
     /// document, averaged over the samples.
     pub fn doc_topic_shares(&self, doc_idx: usize) -> Vec<f64> {
+        self.documents_topic_shares(doc_idx..doc_idx + 1)
+    }
+
+    /// The topic shares of documents `docs` taken as one document (their
+    /// tokens' topics counted together), averaged over the samples; for one
+    /// document, [`Model::doc_topic_shares`].
+    pub fn documents_topic_shares(&self, docs: Range<usize>) -> Vec<f64> {
         let n_topics = self.n_topics();
-        let doc_len = self.doc_len(doc_idx) as f64;
+        let doc_len = docs.clone().map(|doc_idx| self.doc_len(doc_idx)).sum::<u64>() as f64;
         self.with_samples(|samples| {
             let mut shares = vec![0.0; n_topics];
             let weight = 1.0 / samples.len() as f64;
@@ -332,8 +348,10 @@ impl Model {
                 for (topic_idx, share) in shares.iter_mut().enumerate() {
                     *share += weight * sample.priors.alpha[topic_idx] / denominator;
                 }
-                for &(topic, count) in &sample.doc_topic[doc_idx] {
-                    shares[topic as usize] += weight * f64::from(count) / denominator;
+                for doc_idx in docs.clone() {
+                    for &(topic, count) in &sample.doc_topic[doc_idx] {
+                        shares[topic as usize] += weight * f64::from(count) / denominator;
+                    }
                 }
             }
             shares
@@ -344,14 +362,23 @@ impl Model {
     /// the Beta marginals of Dirichlet(alpha + n_d) in each sample (a mixture
     /// when several samples were kept).
     pub fn doc_topic_intervals(&self, doc_idx: usize, level: f64) -> Result<Vec<Interval>, UncertaintyError> {
-        let doc_len = self.doc_len(doc_idx) as f64;
+        (0..self.n_topics())
+            .map(|topic_idx| self.documents_topic_interval(doc_idx..doc_idx + 1, topic_idx, level))
+            .collect()
+    }
+
+    /// The credible interval at `level` of one topic's share of documents
+    /// `docs` taken as one document (see [`Model::doc_topic_intervals`]).
+    pub fn documents_topic_interval(
+        &self,
+        docs: Range<usize>,
+        topic_idx: usize,
+        level: f64,
+    ) -> Result<Interval, UncertaintyError> {
+        let doc_len = docs.clone().map(|doc_idx| self.doc_len(doc_idx)).sum::<u64>() as f64;
         self.with_samples(|samples| {
-            (0..self.n_topics())
-                .map(|topic_idx| {
-                    let components = share_components(samples, doc_idx, topic_idx, doc_len);
-                    uncertainty::mixture_share_interval(&components, level)
-                })
-                .collect()
+            let components = share_components(samples, docs, topic_idx, doc_len);
+            uncertainty::mixture_share_interval(&components, level)
         })
     }
 
@@ -364,11 +391,7 @@ impl Model {
         topic_idx: usize,
         level: f64,
     ) -> Result<Interval, UncertaintyError> {
-        let doc_len = self.doc_len(doc_idx) as f64;
-        self.with_samples(|samples| {
-            let components = share_components(samples, doc_idx, topic_idx, doc_len);
-            uncertainty::mixture_share_interval(&components, level)
-        })
+        self.documents_topic_interval(doc_idx..doc_idx + 1, topic_idx, level)
     }
 
     /// Share of all tokens assigned to each topic, averaged over the samples.

@@ -6,6 +6,7 @@
 use serde::Serialize;
 
 use super::Model;
+use crate::evaluate::compare::{LabelAgreement, label_agreement};
 use crate::evaluate::score::HeldOutScore;
 use crate::fitting::fit::{self, Convergence};
 use crate::fitting::sampler::BetaPrior;
@@ -50,6 +51,9 @@ pub struct FitSummary {
     /// The id of each topic, by index (0..K-1 outside a run root; under a
     /// run root, ids kept from run to run).
     pub topic_ids: Vec<u32>,
+    /// How well the training documents' top topics agree with their labels
+    /// (normalised mutual information; null when no document has a label).
+    pub label_agreement: Option<LabelAgreement>,
 }
 
 /// Version of the summary.json layout.
@@ -99,6 +103,7 @@ impl FitSummary {
             heldout: None,
             peak_rss_bytes: None,
             topic_ids: model.topic_ids.clone(),
+            label_agreement: label_agreement(model),
         }
     }
 

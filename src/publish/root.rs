@@ -87,6 +87,13 @@ impl RunRoot {
         self.path.join("names.toml")
     }
 
+    /// The checkpoint of the run in progress (with `checkpoint_every`); a
+    /// run started again after a crash finishes from it when its inputs and
+    /// settings match.
+    pub fn checkpoint(&self) -> PathBuf {
+        self.path.join("run.checkpoint")
+    }
+
     /// The lock file.
     pub fn lock(&self) -> PathBuf {
         self.path.join("lock")

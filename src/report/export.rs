@@ -23,10 +23,11 @@ use std::io::{self, Write};
 use rayon::prelude::*;
 use serde::Serialize;
 
+use crate::evaluate::compare::top_topic;
 use crate::evaluate::uncertainty::UncertaintyError;
 use crate::model::Model;
 use crate::publish::names::TopicNames;
-use crate::report::{WordLimit, top_topic};
+use crate::report::WordLimit;
 
 /// Which table to export.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]

@@ -58,6 +58,15 @@ fn the_demo_writes_the_same_bytes_as_recorded() {
             record.push_str(&record_line(&name, &bytes));
         }
     }
+    // Source: issue 11, "Done when" — the demo's document shares, as TSV,
+    // take less room than the demo's input.
+    let input = std::fs::metadata(repo.join("corpora-demo/bulletin.jsonl"))
+        .unwrap()
+        .len();
+    for name in ["documents.tsv", "documents-wide.tsv"] {
+        let shares = std::fs::metadata(out.join(name)).unwrap().len();
+        assert!(shares < input, "{name} has {shares} bytes, the input {input}");
+    }
     let path = repo.join("tests/golden/demo.txt");
     if std::env::var_os("THEMATA_BLESS").is_some() {
         std::fs::create_dir_all(path.parent().unwrap()).unwrap();

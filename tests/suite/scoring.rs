@@ -56,7 +56,7 @@ fn fold_in_of_a_training_document_recovers_its_shares() {
             unknown_tokens: 0,
         };
         let mut rng = score::document_rng(9, doc_idx);
-        let placed = score::place(&model, &weights, &doc, &fold, 0.9, &mut rng).unwrap();
+        let placed = score::place(&model, &weights, &doc, &fold, &mut rng).unwrap();
         let trained = model.doc_topic_shares(doc_idx);
         worst = worst.max(jensen_shannon_distance(&placed.shares, &trained));
     }
@@ -136,7 +136,21 @@ fn sweep_recommends_the_generating_number_of_topics() {
             ..FitSettings::fixed(8, 300, 0.1, 0.01, 1)
         },
     };
-    let report = run_k_search(&data.corpus, &settings).unwrap();
+    let finished = std::sync::Mutex::new(Vec::new());
+    let report = run_k_search(&data.corpus, &settings, &|done| {
+        finished.lock().unwrap().push(done)
+    })
+    .unwrap();
+    // Source: issue 11, item 10 — one progress report per finished fit.
+    let mut finished = finished.into_inner().unwrap();
+    finished.sort_by_key(|done| done.done);
+    assert_eq!(
+        finished.iter().map(|d| d.done).collect::<Vec<_>>(),
+        [1, 2, 3, 4, 5, 6]
+    );
+    assert!(finished.iter().all(|d| d.total == 6));
+    // The recommendation (8) lies inside the candidates, so no edge note.
+    assert_eq!(report.recommended_at_edge, None);
     for row in &report.rows {
         eprintln!(
             "K={} perplexity {:.2} (sd {:.2}) npmi {:.3} stability {:?}",

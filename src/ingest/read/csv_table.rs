@@ -5,7 +5,10 @@ use std::collections::VecDeque;
 use std::io::{self, Read};
 use std::path::PathBuf;
 
-use super::{Collector, DiagnosticKind, Origin, READ_BUFFER_BYTES, RawDocument, ReadError, ReadOptions};
+use super::{
+    BYTE_ORDER_MARK, Collector, DiagnosticKind, Origin, READ_BUFFER_BYTES, RawDocument, ReadError,
+    ReadOptions,
+};
 
 /// Turns a failure of the CSV reader into a [`ReadError`].
 fn csv_failure(error: csv::Error, origin_name: &str) -> ReadError {
@@ -25,6 +28,12 @@ fn csv_failure(error: csv::Error, origin_name: &str) -> ReadError {
 /// line break RFC 4180 prescribes. Offsets are dropped once a record past
 /// them has been placed, so memory stays bounded by what the csv reader
 /// buffers ahead plus the current record.
+///
+/// It also follows the quoting of RFC 4180 as the csv reader does (a quote
+/// opens a quoted field only at the start of a field; inside one, a doubled
+/// quote stands for a quote and a single one closes it), to tell when the
+/// input ends inside a quoted field: the csv reader then silently takes
+/// everything from the opening quote to the end of the input as one field.
 struct LineTrackingReader<R> {
     inner: R,
     /// Bytes handed to the csv reader so far.
@@ -35,6 +44,35 @@ struct LineTrackingReader<R> {
     carriage_returns: VecDeque<u64>,
     /// `\n` bytes before the last placed record.
     line_feeds_before: u64,
+    /// Every `\n` byte seen so far.
+    line_feeds_seen: u64,
+    /// Where the quoting rules stand after the bytes seen so far.
+    quoting: Quoting,
+    /// The line the current record starts on.
+    record_line: u64,
+    /// Set when the input ended inside a quoted field: the line of the
+    /// record that opened it.
+    unterminated: Option<u64>,
+    /// Leading bytes that matched the UTF-8 byte order mark.
+    mark_bytes: u64,
+    /// Whether the last byte seen was `\n` (or nothing was seen).
+    ends_with_line_feed: bool,
+}
+
+/// The state of RFC 4180 quoting between two bytes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Quoting {
+    /// Before the first byte of a record (blank lines stay here).
+    RecordStart,
+    /// Before the first byte of a field that is not the record's first.
+    FieldStart,
+    /// Inside a field that did not start with a quote.
+    Unquoted,
+    /// Inside a quoted field.
+    Quoted,
+    /// Just after a quote inside a quoted field: a closing quote, or the
+    /// first of a doubled one.
+    QuoteInQuoted,
 }
 
 impl<R: Read> LineTrackingReader<R> {
@@ -45,7 +83,38 @@ impl<R: Read> LineTrackingReader<R> {
             line_feeds: VecDeque::new(),
             carriage_returns: VecDeque::new(),
             line_feeds_before: 0,
+            line_feeds_seen: 0,
+            quoting: Quoting::RecordStart,
+            record_line: 1,
+            unterminated: None,
+            mark_bytes: 0,
+            ends_with_line_feed: true,
         }
+    }
+
+    /// Follows the quoting rules over one byte.
+    fn follow(&mut self, byte: u8) {
+        let line_break = byte == b'\n' || byte == b'\r';
+        self.quoting = match (self.quoting, byte) {
+            (Quoting::Quoted, b'"') => Quoting::QuoteInQuoted,
+            (Quoting::Quoted, _) => Quoting::Quoted,
+            (Quoting::QuoteInQuoted, b'"') => Quoting::Quoted,
+            (_, b',') => Quoting::FieldStart,
+            (_, _) if line_break => Quoting::RecordStart,
+            (Quoting::RecordStart | Quoting::FieldStart, b'"') => Quoting::Quoted,
+            _ => Quoting::Unquoted,
+        };
+    }
+
+    /// The line of the record that opened a quoted field the input never
+    /// closed, once the input has ended.
+    fn unterminated_record_line(&self) -> Option<u64> {
+        self.unterminated
+    }
+
+    /// Lines seen so far (a last line without a line break counts).
+    fn lines_seen(&self) -> u64 {
+        self.line_feeds_seen + u64::from(!self.ends_with_line_feed)
     }
 
     /// The 1-based line of the first byte at or after `offset` that is not a
@@ -80,14 +149,31 @@ impl<R: Read> LineTrackingReader<R> {
 impl<R: Read> Read for LineTrackingReader<R> {
     fn read(&mut self, buffer: &mut [u8]) -> io::Result<usize> {
         let read = self.inner.read(buffer)?;
-        for (index, byte) in buffer[..read].iter().enumerate() {
+        for (index, &byte) in buffer[..read].iter().enumerate() {
+            let at = self.offset + index as u64;
+            // The csv reader skips a byte order mark before the header.
+            if at < 3 && self.mark_bytes == at && byte == BYTE_ORDER_MARK[at as usize] {
+                self.mark_bytes += 1;
+                continue;
+            }
+            if self.quoting == Quoting::RecordStart && byte != b'\n' && byte != b'\r' {
+                self.record_line = self.line_feeds_seen + 1;
+            }
+            self.follow(byte);
+            self.ends_with_line_feed = byte == b'\n';
             match byte {
-                b'\n' => self.line_feeds.push_back(self.offset + index as u64),
-                b'\r' => self.carriage_returns.push_back(self.offset + index as u64),
+                b'\n' => {
+                    self.line_feeds.push_back(at);
+                    self.line_feeds_seen += 1;
+                }
+                b'\r' => self.carriage_returns.push_back(at),
                 _ => {}
             }
         }
         self.offset += read as u64;
+        if read == 0 && !buffer.is_empty() && self.quoting == Quoting::Quoted {
+            self.unterminated = Some(self.record_line);
+        }
         Ok(read)
     }
 }
@@ -136,6 +222,7 @@ pub(super) fn read_csv<R: Read>(
             available: columns,
         });
     };
+    collector.note_fields(options, |name| find(name).is_some());
     let id_column = find(&options.id_field);
     let label_column = find(&options.label_field);
     let date_column = find(&options.date_field);
@@ -171,6 +258,16 @@ pub(super) fn read_csv<R: Read>(
                 .position()
                 .map(|position| csv_reader.get_mut().line_at(position.byte())),
         };
+        if let Some(line) = csv_reader.get_ref().unterminated_record_line()
+            && origin.line == Some(line)
+        {
+            let last = csv_reader.get_ref().lines_seen();
+            let message = format!(
+                "a quoted field of this record is never closed, so everything up to the end of the input (lines {line} to {last}) was read as one field; close the quote (a quote inside a quoted field is written twice: \"\")"
+            );
+            collector.skip(DiagnosticKind::BadRecord, origin, None, message);
+            continue;
+        }
         if record.len() != columns.len() {
             let message = format!(
                 "record has {} fields but the header row has {}",
@@ -319,6 +416,60 @@ mod tests {
             .map(|document| document.origin.line)
             .collect();
         assert_eq!(lines, [Some(3), Some(6), Some(7), Some(9)]);
+    }
+
+    #[test]
+    fn an_unterminated_quote_is_a_bad_record_not_a_swallowed_file() {
+        // Source: RFC 4180 §2.5-2.7 — a field that starts with a quote ends
+        // at the next single quote; without one, the record (and with it
+        // every line after it) is malformed. Issue 11, item 3: it must be a
+        // diagnostic with its file and line, also when it is the last record.
+        let folder = tempfile::tempdir().expect("temp dir");
+        let path = write(
+            folder.path(),
+            "bad.csv",
+            b"id,text\n1,harbour boat fishing\n2,harbour boat net\n3,\"unterminated harbour boat\n4,fine text here harbour\n",
+        );
+        let outcome = run(std::slice::from_ref(&path), &ReadOptions::default());
+        assert_eq!(outcome.ids(), ["1", "2"]);
+        assert_eq!(outcome.kinds(), [DiagnosticKind::BadRecord]);
+        let diagnostic = &outcome.diagnostics[0];
+        assert_eq!(diagnostic.origin.line, Some(4));
+        assert!(
+            diagnostic.message.contains("never closed") && diagnostic.message.contains("lines 4 to 5"),
+            "{}",
+            diagnostic.message
+        );
+        assert_eq!(
+            outcome.counts(),
+            ReadCounts {
+                records_seen: 3,
+                documents_emitted: 2
+            }
+        );
+        // The same at the end of the file, with CRLF line ends and no final
+        // line break.
+        let path = write(
+            folder.path(),
+            "end.csv",
+            b"id,text\r\na,\"closed \"\"quote\"\" fine\"\r\nb,\"open to the end",
+        );
+        let outcome = run(std::slice::from_ref(&path), &ReadOptions::default());
+        assert_eq!(outcome.ids(), ["a"]);
+        assert_eq!(outcome.documents[0].text, "closed \"quote\" fine");
+        assert_eq!(outcome.diagnostics.len(), 1);
+        assert_eq!(outcome.diagnostics[0].origin.line, Some(3));
+        assert!(outcome.diagnostics[0].message.contains("lines 3 to 3"));
+        // A quote inside an unquoted field is kept as it is (the csv reader's
+        // lenient reading), and a quoted field may hold line breaks.
+        let path = write(
+            folder.path(),
+            "lenient.csv",
+            b"id,text\nx,a 5\" pipe\ny,\"two\nlines\"\nz,last\n",
+        );
+        let outcome = run(std::slice::from_ref(&path), &ReadOptions::default());
+        assert_eq!(outcome.ids(), ["x", "y", "z"]);
+        assert!(outcome.diagnostics.is_empty());
     }
 
     #[test]

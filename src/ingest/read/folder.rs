@@ -1,5 +1,6 @@
 //! Folders of text files: the depth-first walk in byte order of names,
-//! ids from the path below the folder, links followed but not in loops, and
+//! ids from the path as given (the folder's, then the path below it), links
+//! followed but not in loops, and
 //! the checks every text document gets (UTF-8, byte order mark).
 
 use std::ffi::OsString;
@@ -24,9 +25,33 @@ fn kind_taken_by_folder(format: InputFormat, path: &Path) -> Option<FileKind> {
     }
 }
 
+/// The id of a text file given as (or found below) `path`: the path as
+/// given, `.` parts and repeated or trailing separators dropped, parts
+/// joined by `/` whatever the platform. A file found in a folder and the
+/// same file given directly get the same id, as long as the path is spelled
+/// the same way.
+pub(super) fn path_id(path: &Path) -> String {
+    use std::path::Component;
+    let mut parts: Vec<String> = Vec::new();
+    let mut rooted = false;
+    for component in path.components() {
+        match component {
+            Component::CurDir => {}
+            Component::RootDir => rooted = true,
+            Component::Prefix(prefix) => parts.push(prefix.as_os_str().to_string_lossy().into_owned()),
+            Component::ParentDir => parts.push("..".to_string()),
+            Component::Normal(part) => parts.push(part.to_string_lossy().into_owned()),
+        }
+    }
+    let joined = parts.join("/");
+    if rooted { format!("/{joined}") } else { joined }
+}
+
 /// State of one recursive folder walk.
 pub(super) struct FolderWalk<'a> {
     pub(super) options: &'a ReadOptions,
+    /// The id of the walk's root folder ([`path_id`]), empty for `.`.
+    pub(super) root_id: String,
     /// Names of the folders between the walk's root and the current folder.
     pub(super) relative: Vec<String>,
     /// Resolved paths of the folders being walked, to stop at link loops.
@@ -118,9 +143,13 @@ impl FolderWalk<'_> {
         Ok(())
     }
 
-    /// The id of entry `name` of the current folder: its path below the root.
+    /// The id of entry `name` of the current folder: the root's id, then
+    /// its path below the root.
     fn relative_id(&self, name: &str) -> String {
-        let mut id = String::new();
+        let mut id = self.root_id.clone();
+        if !id.is_empty() && !id.ends_with('/') {
+            id.push('/');
+        }
         for part in &self.relative {
             id.push_str(part);
             id.push('/');
@@ -194,10 +223,18 @@ mod tests {
         // byte order puts "A.txt" first; a name sorts before any longer name it
         // is a prefix of ("a" before "a.txt") — common practice for byte-wise order.
         assert_eq!(
-            outcome.ids(),
+            outcome.ids_below(folder.path()),
             ["A.txt", "a/sub/y.txt", "a/z.md", "a b.txt", "a.txt", "b.txt"]
         );
-        // Source: common practice (ids use '/' whatever the platform).
+        // Source: common practice (ids use '/' whatever the platform); issue
+        // 11, item 9: a file's id starts with its folder's path as given, so
+        // it is the same when the file itself is given.
+        assert_eq!(
+            outcome.documents[1].id,
+            format!("{}/a/sub/y.txt", folder.path().display())
+        );
+        let direct = run(&[folder.path().join("a/sub/y.txt")], &ReadOptions::default());
+        assert_eq!(direct.ids(), [outcome.documents[1].id.as_str()]);
         let nested = &outcome.documents[1];
         assert_eq!(nested.text, "words of a/sub/y.txt");
         assert_eq!(
@@ -237,10 +274,10 @@ mod tests {
         let root = [folder.path().to_path_buf()];
         // Source: common practice (file extensions compared without regard to case).
         let text = run(&root, &ReadOptions::default());
-        assert_eq!(text.ids(), ["notes.TXT", "readme.Md"]);
+        assert_eq!(text.ids_below(folder.path()), ["notes.TXT", "readme.Md"]);
         assert_eq!(text.counts().records_seen, 2);
         let explicit_text = run(&root, &options_with(InputFormat::Text));
-        assert_eq!(explicit_text.ids(), ["notes.TXT", "readme.Md"]);
+        assert_eq!(explicit_text.ids_below(folder.path()), ["notes.TXT", "readme.Md"]);
         // Source: JSON Lines convention (.jsonl; .ndjson is the NDJSON spelling of the same format).
         let json_lines = run(&root, &options_with(InputFormat::Jsonl));
         assert_eq!(json_lines.ids(), ["j2", "j1"]);
@@ -261,7 +298,7 @@ mod tests {
         write(folder.path(), "sub/.also.md", b"hidden in a sub folder");
         let outcome = run(&[folder.path().to_path_buf()], &ReadOptions::default());
         // Source: common practice (Unix convention: names starting with '.' are hidden).
-        assert_eq!(outcome.ids(), ["seen.txt"]);
+        assert_eq!(outcome.ids_below(folder.path()), ["seen.txt"]);
         assert_eq!(outcome.counts().records_seen, 1);
     }
 
@@ -271,6 +308,11 @@ mod tests {
         let path = write(folder.path(), "one.md", b"\xEF\xBB\xBFheading and words\n");
         let outcome = run(std::slice::from_ref(&path), &ReadOptions::default());
         // Source: common practice (a file named directly keeps the name it was given).
+        assert_eq!(outcome.ids(), [path.to_string_lossy().as_ref()]);
+        // `.` parts and doubled separators are not part of a name (POSIX
+        // pathname resolution, XBD 4.13).
+        let spelled = PathBuf::from(format!("{}/.//one.md", folder.path().display()));
+        let outcome = run(&[spelled], &ReadOptions::default());
         assert_eq!(outcome.ids(), [path.to_string_lossy().as_ref()]);
         // Source: Unicode Standard §23.8 (U+FEFF at the start of a text is a byte
         // order mark, a signature rather than content).
@@ -285,15 +327,16 @@ mod tests {
         let outcome = run(&[folder.path().to_path_buf()], &ReadOptions::default());
         // Source: RFC 3629 §3 (E9 starts a three-byte sequence and needs continuation
         // bytes 80..BF after it; C3 A9 is U+00E9).
-        assert_eq!(outcome.ids(), ["good.txt"]);
+        assert_eq!(outcome.ids_below(folder.path()), ["good.txt"]);
         assert_eq!(outcome.documents[0].text, "café");
         assert_eq!(outcome.kinds(), [DiagnosticKind::InvalidUtf8]);
         let diagnostic = &outcome.diagnostics[0];
+        let id = format!("{}/latin1.txt", folder.path().display());
         assert_eq!(diagnostic.origin.line, Some(3));
-        assert_eq!(diagnostic.document.as_deref(), Some("latin1.txt"));
+        assert_eq!(diagnostic.document.as_deref(), Some(id.as_str()));
         assert_eq!(
             diagnostic.message,
-            "document `latin1.txt` is not valid UTF-8 (first bad byte at byte offset 26)"
+            format!("document `{id}` is not valid UTF-8 (first bad byte at byte offset 26)")
         );
     }
 
@@ -306,9 +349,12 @@ mod tests {
             .expect("symlink");
         let outcome = run(&[folder.path().to_path_buf()], &ReadOptions::default());
         // Source: POSIX open() (ENOENT for a link whose target does not exist).
-        assert_eq!(outcome.ids(), ["real.txt"]);
+        assert_eq!(outcome.ids_below(folder.path()), ["real.txt"]);
         assert_eq!(outcome.kinds(), [DiagnosticKind::Unreadable]);
-        assert_eq!(outcome.diagnostics[0].document.as_deref(), Some("link.txt"));
+        assert_eq!(
+            outcome.diagnostics[0].document,
+            Some(format!("{}/link.txt", folder.path().display()))
+        );
         assert_eq!(
             outcome.counts(),
             ReadCounts {
@@ -328,7 +374,10 @@ mod tests {
         let outcome = run(&[folder.path().to_path_buf()], &ReadOptions::default());
         // Source: common practice (walkers that follow links stop at a link to an
         // ancestor); a link to a sibling folder is read again under its own name.
-        assert_eq!(outcome.ids(), ["alias/inner.txt", "sub/inner.txt"]);
+        assert_eq!(
+            outcome.ids_below(folder.path()),
+            ["alias/inner.txt", "sub/inner.txt"]
+        );
         assert_eq!(
             outcome.kinds(),
             [DiagnosticKind::Unreadable, DiagnosticKind::Unreadable]

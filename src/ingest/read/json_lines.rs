@@ -26,6 +26,7 @@ pub(super) fn read_json_lines<R: BufRead>(
 ) -> Result<(), ReadError> {
     let mut buffer: Vec<u8> = Vec::with_capacity(READ_BUFFER_BYTES);
     let mut line_number: u64 = 0;
+    let mut fields = FieldsSeen::default();
     loop {
         buffer.clear();
         let read = reader
@@ -35,6 +36,13 @@ pub(super) fn read_json_lines<R: BufRead>(
                 source,
             })?;
         if read == 0 {
+            if fields.objects > 0 && !fields.text_field {
+                return Err(ReadError::MissingTextField {
+                    path: PathBuf::from(origin_name),
+                    field: options.text_field.clone(),
+                    seen: fields.names,
+                });
+            }
             return Ok(());
         }
         line_number += 1;
@@ -42,11 +50,25 @@ pub(super) fn read_json_lines<R: BufRead>(
         if line_number == 1 {
             line = line.strip_prefix(BYTE_ORDER_MARK).unwrap_or(line);
         }
-        read_json_line(line, line_number, origin_name, options, collector);
+        read_json_line(line, line_number, origin_name, options, collector, &mut fields);
         if buffer.capacity() > LINE_BUFFER_KEEP_BYTES {
             buffer = Vec::with_capacity(READ_BUFFER_BYTES);
         }
     }
+}
+
+/// Field names shown when no record has the text field.
+const FIELD_NAMES_SHOWN: usize = 12;
+
+/// What the objects of one input had, for the checks made at its end.
+#[derive(Default)]
+struct FieldsSeen {
+    /// Lines that held a JSON object.
+    objects: usize,
+    /// Whether any of them had the text field.
+    text_field: bool,
+    /// The first few field names seen, in first-seen order.
+    names: Vec<String>,
 }
 
 /// Handles one line of JSON Lines (with its line break, if any).
@@ -56,6 +78,7 @@ fn read_json_line(
     origin_name: &str,
     options: &ReadOptions,
     collector: &mut Collector<'_>,
+    seen: &mut FieldsSeen,
 ) {
     let line = raw.trim_ascii();
     if line.is_empty() {
@@ -95,6 +118,14 @@ fn read_json_line(
         collector.skip(DiagnosticKind::BadRecord, origin, None, message);
         return;
     };
+    seen.objects += 1;
+    seen.text_field |= fields.contains_key(&options.text_field);
+    for name in fields.keys() {
+        if seen.names.len() < FIELD_NAMES_SHOWN && !seen.names.contains(name) {
+            seen.names.push(name.clone());
+        }
+    }
+    collector.note_fields(options, |name| fields.contains_key(name));
     let id = match scalar_field(fields.get(&options.id_field)) {
         Ok(Some(id)) => id,
         Ok(None) => origin.to_string(),
@@ -237,6 +268,8 @@ mod tests {
             text_field: "body".into(),
             id_field: "key".into(),
             label_field: "topic".into(),
+            unique_ids: true,
+            named_fields: Vec::new(),
         };
         let bytes = b"{\"key\": \"k1\", \"body\": \"the body\", \"topic\": \"t\", \"when\": \" 2024-03-01 \", \"text\": \"ignored\"}\n{\"text\": \"only text\"}\n";
         let outcome = run_json_lines(bytes, &options);
@@ -480,7 +513,10 @@ mod tests {
             diagnostics: &mut diagnostics,
             sink: &mut sink,
             seen_ids: HashSet::new(),
+            unique_ids: true,
             counts: ReadCounts::default(),
+            named_found: Vec::new(),
+            records_read: false,
         };
         let result = read_json_lines(reader, STDIN_ORIGIN, &ReadOptions::default(), &mut collector);
         // Source: common practice (a failed read is an error, not the end of the input).

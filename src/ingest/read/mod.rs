@@ -11,11 +11,14 @@
 //! - Folders are walked depth first, entries of each folder in byte order of
 //!   their names; names starting with `.` are skipped. Linked folders are
 //!   followed, except a link back into a folder being walked.
-//! - Ids: a text file in a folder is named by its path below that folder with
-//!   `/` separators; a text file given directly by the path as given; a record
-//!   by its id field or column, or `file:line` when that is missing or empty.
+//! - Ids: a text file is named by its path as given (for a file found in a
+//!   folder, the folder's path as given and then the path below it), `.`
+//!   parts dropped and `/` between parts, so a file has the same id whether
+//!   its folder or the file itself was passed; a record by its id field or
+//!   column, or `file:line` when that is missing or empty.
 //! - A document whose text is empty or only whitespace is skipped, and so is
-//!   a document whose id was already handed out earlier in the same call.
+//!   a document whose id was already handed out earlier in the same call
+//!   (unless `unique_ids` is off, as for `assign`).
 //! - The input `-` is standard input, read as JSON Lines (as CSV with the CSV
 //!   format, as one text document with the text format).
 
@@ -32,7 +35,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use csv_table::read_csv;
-use folder::{FolderWalk, offer_text};
+use folder::{FolderWalk, offer_text, path_id};
 use json_lines::read_json_lines;
 pub use origin::{Diagnostic, DiagnosticKind, Origin};
 
@@ -73,6 +76,40 @@ pub enum InputFormat {
     Csv,
 }
 
+/// What an optional field of a record is for.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum FieldRole {
+    Id,
+    Label,
+    Date,
+}
+
+impl FieldRole {
+    fn name(self) -> &'static str {
+        match self {
+            FieldRole::Id => "id",
+            FieldRole::Label => "label",
+            FieldRole::Date => "date",
+        }
+    }
+
+    /// What documents do without the field.
+    fn without(self) -> &'static str {
+        match self {
+            FieldRole::Id => "documents are named by file and line instead; check the field name",
+            FieldRole::Label => "no document has a label; check the field name",
+            FieldRole::Date => "no document has a date; check the field name",
+        }
+    }
+}
+
+/// An optional field the user named, to be warned about when no record has it.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct NamedField {
+    pub role: FieldRole,
+    pub name: String,
+}
+
 /// Resolved reading options.
 #[derive(Clone, Debug)]
 pub struct ReadOptions {
@@ -86,6 +123,13 @@ pub struct ReadOptions {
     pub label_field: String,
     /// The JSON field or CSV column holding the document date (optional).
     pub date_field: String,
+    /// Skip a document whose id an earlier one had (true for building a
+    /// corpus, where ids name documents; `assign` streams and keeps nothing
+    /// per document, so it places every document whatever its id).
+    pub unique_ids: bool,
+    /// Optional fields the user named (rather than left at their
+    /// defaults): a warning says so when no record of any input has one.
+    pub named_fields: Vec<NamedField>,
 }
 
 impl Default for ReadOptions {
@@ -96,6 +140,8 @@ impl Default for ReadOptions {
             id_field: DEFAULT_ID_FIELD.into(),
             label_field: DEFAULT_LABEL_FIELD.into(),
             date_field: DEFAULT_DATE_FIELD.into(),
+            unique_ids: true,
+            named_fields: Vec::new(),
         }
     }
 }
@@ -136,7 +182,7 @@ pub enum ReadError {
     },
     /// A CSV header row lacks the text column.
     #[error(
-        "{path}: the header row has no column `{column}` (columns: {}); set the text field to the column holding the text",
+        "{path}: the header row has no column `{column}` (columns: {}); name the column holding the text with --text-field (text_field in a config file)",
         list_columns(.available)
     )]
     MissingColumn {
@@ -146,6 +192,19 @@ pub enum ReadError {
         column: String,
         /// The columns the header row does name.
         available: Vec<String>,
+    },
+    /// No record of a JSON Lines input has the text field.
+    #[error(
+        "{path}: no record has the text field `{field}` (fields seen: {}); name the field holding the text with --text-field (text_field in a config file)",
+        list_columns(.seen)
+    )]
+    MissingTextField {
+        /// The input.
+        path: PathBuf,
+        /// The text field that was asked for.
+        field: String,
+        /// Field names the records do have (the first few).
+        seen: Vec<String>,
     },
     /// A CSV input has no usable header row.
     #[error("{path}: {problem}; a CSV input must start with a header row naming its columns")]
@@ -191,14 +250,18 @@ pub struct ReadCounts {
 /// All inputs are checked (existence, format) before anything is read, so a
 /// mistyped path fails fast. Documents are handed over in input order, and
 /// within a folder in walk order.
+///
+/// `warnings` receives what is worth saying once about the whole call: an
+/// optional field the user named that no record of any input has.
 pub fn read_documents(
     inputs: &[PathBuf],
     options: &ReadOptions,
     diagnostics: &mut Vec<Diagnostic>,
+    warnings: &mut Vec<String>,
     sink: &mut dyn FnMut(RawDocument),
 ) -> Result<ReadCounts, ReadError> {
     let mut open_stdin = || -> Box<dyn BufRead> { Box::new(io::stdin().lock()) };
-    read_documents_from(inputs, options, diagnostics, sink, &mut open_stdin)
+    read_documents_from(inputs, options, diagnostics, warnings, sink, &mut open_stdin)
 }
 
 /// [`read_documents`] with the source of standard input passed in.
@@ -206,6 +269,7 @@ fn read_documents_from(
     inputs: &[PathBuf],
     options: &ReadOptions,
     diagnostics: &mut Vec<Diagnostic>,
+    warnings: &mut Vec<String>,
     sink: &mut dyn FnMut(RawDocument),
     open_stdin: &mut dyn FnMut() -> Box<dyn BufRead>,
 ) -> Result<ReadCounts, ReadError> {
@@ -220,7 +284,10 @@ fn read_documents_from(
         diagnostics,
         sink,
         seen_ids: HashSet::new(),
+        unique_ids: options.unique_ids,
         counts: ReadCounts::default(),
+        named_found: vec![false; options.named_fields.len()],
+        records_read: false,
     };
     for plan in plans {
         match plan {
@@ -228,13 +295,14 @@ fn read_documents_from(
             InputPlan::Folder(folder) => {
                 let mut walk = FolderWalk {
                     options,
+                    root_id: path_id(folder),
                     relative: Vec::new(),
                     ancestors: Vec::new(),
                 };
                 walk.walk(folder, &mut collector)?;
             }
             InputPlan::File(path, kind) => {
-                let id = path.to_string_lossy().into_owned();
+                let id = path_id(path);
                 read_file(path, kind, id, options, &mut collector)?;
             }
             InputPlan::Unopenable(path, error) => {
@@ -248,6 +316,18 @@ fn read_documents_from(
                     None,
                     format!("cannot be opened: {error}; check its permissions"),
                 );
+            }
+        }
+    }
+    if collector.records_read {
+        for (field, found) in options.named_fields.iter().zip(&collector.named_found) {
+            if !found {
+                warnings.push(format!(
+                    "no record of any input has the {} field `{}`; {}",
+                    field.role.name(),
+                    field.name,
+                    field.role.without()
+                ));
             }
         }
     }
@@ -324,7 +404,24 @@ struct Collector<'a> {
     diagnostics: &'a mut Vec<Diagnostic>,
     sink: &'a mut dyn FnMut(RawDocument),
     seen_ids: HashSet<String>,
+    unique_ids: bool,
     counts: ReadCounts,
+    /// Per entry of `ReadOptions::named_fields`: whether some record had it.
+    named_found: Vec<bool>,
+    /// Whether any record-based input (JSON Lines, CSV) was read.
+    records_read: bool,
+}
+
+impl Collector<'_> {
+    /// Notes the fields a record (or a CSV header) has.
+    fn note_fields(&mut self, options: &ReadOptions, mut has: impl FnMut(&str) -> bool) {
+        self.records_read = true;
+        for (field, found) in options.named_fields.iter().zip(self.named_found.iter_mut()) {
+            if !*found && has(&field.name) {
+                *found = true;
+            }
+        }
+    }
 }
 
 impl Collector<'_> {
@@ -348,7 +445,7 @@ impl Collector<'_> {
             self.skip(DiagnosticKind::Empty, document.origin, Some(document.id), message);
             return;
         }
-        if self.seen_ids.contains(&document.id) {
+        if self.unique_ids && self.seen_ids.contains(&document.id) {
             let message = format!(
                 "document id `{}` was already used by an earlier document; this one is skipped",
                 document.id
@@ -361,7 +458,9 @@ impl Collector<'_> {
             );
             return;
         }
-        self.seen_ids.insert(document.id.clone());
+        if self.unique_ids {
+            self.seen_ids.insert(document.id.clone());
+        }
         self.counts.documents_emitted += 1;
         (self.sink)(document);
     }
@@ -456,6 +555,7 @@ mod test_support {
         pub(super) result: Result<ReadCounts, ReadError>,
         pub(super) documents: Vec<RawDocument>,
         pub(super) diagnostics: Vec<Diagnostic>,
+        pub(super) warnings: Vec<String>,
     }
 
     impl Outcome {
@@ -463,6 +563,22 @@ mod test_support {
             self.documents
                 .iter()
                 .map(|document| document.id.as_str())
+                .collect()
+        }
+
+        /// The ids with the id of the folder `root` and its `/` taken off
+        /// the front (ids of files found in a folder start with it).
+        pub(super) fn ids_below(&self, root: &Path) -> Vec<String> {
+            let prefix = format!("{}/", path_id(root));
+            self.documents
+                .iter()
+                .map(|document| {
+                    document
+                        .id
+                        .strip_prefix(&prefix)
+                        .unwrap_or(&document.id)
+                        .to_string()
+                })
                 .collect()
         }
 
@@ -490,10 +606,12 @@ mod test_support {
         let mut diagnostics = Vec::new();
         let stdin = stdin.to_vec();
         let mut open_stdin = move || -> Box<dyn BufRead> { Box::new(Cursor::new(stdin.clone())) };
+        let mut warnings = Vec::new();
         let result = read_documents_from(
             inputs,
             options,
             &mut diagnostics,
+            &mut warnings,
             &mut |document| documents.push(document),
             &mut open_stdin,
         );
@@ -501,6 +619,7 @@ mod test_support {
             result,
             documents,
             diagnostics,
+            warnings,
         }
     }
 
@@ -517,7 +636,10 @@ mod test_support {
             diagnostics: &mut diagnostics,
             sink: &mut sink,
             seen_ids: HashSet::new(),
+            unique_ids: options.unique_ids,
             counts: ReadCounts::default(),
+            named_found: vec![false; options.named_fields.len()],
+            records_read: false,
         };
         let result = read_json_lines(Cursor::new(bytes), "mem.jsonl", options, &mut collector)
             .map(|()| collector.counts);
@@ -525,6 +647,7 @@ mod test_support {
             result,
             documents,
             diagnostics,
+            warnings: Vec::new(),
         }
     }
 
@@ -651,6 +774,62 @@ mod tests {
     }
 
     #[test]
+    pub(super) fn named_fields_no_record_has_are_warned_about_once() {
+        // Source: issue 11, item 7 — a label field that names a column no
+        // record has: one warning for the whole call, whatever the number
+        // of inputs; a text field no record of an input has: a failure
+        // naming the fields there are.
+        let folder = tempfile::tempdir().expect("temp dir");
+        let jsonl = write(
+            folder.path(),
+            "a.jsonl",
+            b"{\"id\": \"a\", \"text\": \"words\", \"when\": \"2024\"}\n",
+        );
+        let csv = write(folder.path(), "b.csv", b"id,text\nb,more words\n");
+        let options = ReadOptions {
+            label_field: "theme".into(),
+            date_field: "when".into(),
+            named_fields: vec![
+                NamedField {
+                    role: FieldRole::Label,
+                    name: "theme".into(),
+                },
+                NamedField {
+                    role: FieldRole::Date,
+                    name: "when".into(),
+                },
+            ],
+            ..ReadOptions::default()
+        };
+        let outcome = run(&[jsonl.clone(), csv], &options);
+        assert_eq!(outcome.ids(), ["a", "b"]);
+        assert_eq!(
+            outcome.warnings,
+            [
+                "no record of any input has the label field `theme`; no document has a label; check the field name"
+            ]
+        );
+        // Text files have no fields: nothing to warn about.
+        let text = write(folder.path(), "c.txt", b"plain words");
+        assert!(run(&[text], &options).warnings.is_empty());
+        let body = ReadOptions {
+            text_field: "body".into(),
+            ..ReadOptions::default()
+        };
+        match run(&[jsonl], &body).result {
+            Err(error @ ReadError::MissingTextField { .. }) => {
+                let message = error.to_string();
+                assert!(
+                    message
+                        .contains("no record has the text field `body` (fields seen: `id`, `text`, `when`)"),
+                    "{message}"
+                );
+            }
+            other => panic!("expected MissingTextField, got {other:?}"),
+        }
+    }
+
+    #[test]
     pub(super) fn empty_and_whitespace_documents_are_skipped() {
         let folder = tempfile::tempdir().expect("temp dir");
         write(folder.path(), "a/b.txt", b"");
@@ -658,14 +837,18 @@ mod tests {
         write(folder.path(), "d.txt", "\u{3000}\u{00A0}\u{2028}".as_bytes());
         write(folder.path(), "e.txt", b"real words");
         let outcome = run(&[folder.path().to_path_buf()], &ReadOptions::default());
+        let root = path_id(folder.path());
         // Source: Unicode PropList.txt White_Space (U+3000, U+00A0 and U+2028 are white space).
-        assert_eq!(outcome.ids(), ["e.txt"]);
+        assert_eq!(outcome.ids_below(folder.path()), ["e.txt"]);
         assert_eq!(outcome.kinds(), vec![DiagnosticKind::Empty; 3]);
-        assert_eq!(outcome.diagnostics[0].message, "document `a/b.txt` is empty");
-        assert_eq!(outcome.diagnostics[0].document.as_deref(), Some("a/b.txt"));
+        assert_eq!(
+            outcome.diagnostics[0].message,
+            format!("document `{root}/a/b.txt` is empty")
+        );
+        assert_eq!(outcome.diagnostics[0].document, Some(format!("{root}/a/b.txt")));
         assert_eq!(
             outcome.diagnostics[1].message,
-            "document `c.txt` holds only whitespace"
+            format!("document `{root}/c.txt` holds only whitespace")
         );
         assert_eq!(
             outcome.counts(),

@@ -214,6 +214,9 @@ pub(crate) fn normalize_word(word: &str, lowercase: bool) -> String {
 pub struct Tokenizer {
     settings: TokenizerSettings,
     chain: FilterChain,
+    /// The stemmer, kept out of the chain so that the word it stems (the
+    /// surface form a stem is shown as) can be seen too.
+    stem: Option<StemFilter>,
 }
 
 impl std::fmt::Debug for Tokenizer {
@@ -222,6 +225,7 @@ impl std::fmt::Debug for Tokenizer {
             .debug_struct("Tokenizer")
             .field("settings", &self.settings)
             .field("chain", &self.chain)
+            .field("stem", &self.stem)
             .finish()
     }
 }
@@ -266,12 +270,10 @@ impl Tokenizer {
         if !stopword_filter.is_empty() {
             builder = builder.then(stopword_filter);
         }
-        if let Some(algorithm) = stem_algorithm {
-            builder = builder.then(StemFilter::new(algorithm));
-        }
         Ok(Tokenizer {
             settings: settings.clone(),
             chain: builder.build(),
+            stem: stem_algorithm.map(StemFilter::new),
         })
     }
 
@@ -282,7 +284,9 @@ impl Tokenizer {
 
     /// The names of the filters in the chain, in order (for logs and help).
     pub fn filter_names(&self) -> Vec<&'static str> {
-        self.chain.filter_names()
+        let mut names = self.chain.filter_names();
+        names.extend(self.stem.as_ref().map(|stem| stem.name()));
+        names
     }
 
     /// Calls `f` with each kept token of `text`, in order.
@@ -296,10 +300,42 @@ impl Tokenizer {
         for word in normalized.unicode_words() {
             buffer.clear();
             buffer.push_str(word);
-            if self.chain.apply(&mut buffer) {
+            if self.chain.apply(&mut buffer) && self.stem.as_ref().is_none_or(|stem| stem.apply(&mut buffer))
+            {
                 f(&buffer);
             }
         }
+    }
+
+    /// Calls `f(token, surface)` with each kept token of `text` and the word
+    /// it was before stemming (lowercased, normalised: the form a stem is
+    /// shown as); the two are the same without stemming.
+    pub fn for_each_token_with_surface(&self, text: &str, f: &mut dyn FnMut(&str, &str)) {
+        let normalized = normalize_text(text);
+        let mut buffer = String::with_capacity(32);
+        let mut surface = String::with_capacity(32);
+        for word in normalized.unicode_words() {
+            buffer.clear();
+            buffer.push_str(word);
+            if !self.chain.apply(&mut buffer) {
+                continue;
+            }
+            match &self.stem {
+                None => f(&buffer, &buffer),
+                Some(stem) => {
+                    surface.clear();
+                    surface.push_str(&buffer);
+                    if stem.apply(&mut buffer) {
+                        f(&buffer, &surface);
+                    }
+                }
+            }
+        }
+    }
+
+    /// Whether tokens are stems (and so have surface forms worth keeping).
+    pub fn stems(&self) -> bool {
+        self.stem.is_some()
     }
 
     /// Collects the kept tokens of `text`.
