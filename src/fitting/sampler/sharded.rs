@@ -40,6 +40,7 @@ use super::block::{Block, BlockContext, BlockKernel, LocalOrder, Shard, WordReco
 use super::counts::RowsMut;
 use super::exact::ExactKernel;
 use super::metropolis::MetropolisKernel;
+use super::sparse::SparseKernel;
 use super::{CountState, Priors, Topic};
 use crate::fitting::schedule::SamplerKind;
 use crate::ingest::corpus::Corpus;
@@ -59,6 +60,7 @@ pub fn tokens_per_shard(kind: SamplerKind) -> Option<usize> {
         SamplerKind::Reference => None,
         SamplerKind::Exact => Some(ExactKernel::TOKENS_PER_SHARD),
         SamplerKind::Metropolis => Some(MetropolisKernel::TOKENS_PER_SHARD),
+        SamplerKind::Sparse => Some(SparseKernel::TOKENS_PER_SHARD),
     }
 }
 
@@ -78,6 +80,7 @@ fn word_costs(kind: SamplerKind, corpus: &Corpus, word_tokens: &[u64]) -> Vec<u6
     }
     let cost = match kind {
         SamplerKind::Metropolis => MetropolisKernel::word_cost,
+        SamplerKind::Sparse => SparseKernel::word_cost,
         SamplerKind::Exact | SamplerKind::Reference => ExactKernel::word_cost,
     };
     word_tokens
@@ -164,6 +167,7 @@ fn uses_word_list(kind: SamplerKind) -> bool {
     match kind {
         SamplerKind::Exact => ExactKernel::USES_WORD_LIST,
         SamplerKind::Metropolis => MetropolisKernel::USES_WORD_LIST,
+        SamplerKind::Sparse => SparseKernel::USES_WORD_LIST,
         SamplerKind::Reference => false,
     }
 }
@@ -334,6 +338,10 @@ impl ShardedSampler {
                 let kernel = MetropolisKernel::new(priors, n_topics, n_words);
                 self.sweep_with(&kernel, state, corpus, seed, iteration);
             }
+            SamplerKind::Sparse => {
+                let kernel = SparseKernel::new(priors, n_topics, n_words);
+                self.sweep_with(&kernel, state, corpus, seed, iteration);
+            }
             // `new` builds no driver for the reference sweep.
             SamplerKind::Reference => unreachable!("the reference sweep does not run on the block grid"),
         }
@@ -341,7 +349,7 @@ impl ShardedSampler {
 
     /// One sweep of `kernel` over every block, epoch by epoch. The state's
     /// topics are in sampler order from `load` to `store`.
-    fn sweep_with<K: BlockKernel>(
+    pub(super) fn sweep_with<K: BlockKernel>(
         &mut self,
         kernel: &K,
         state: &mut CountState,
@@ -622,7 +630,7 @@ mod tests {
     fn default_shard_count_depends_on_tokens_and_kernel_only() {
         // Source: common practice — the plan must not depend on the machine.
         assert_eq!(default_shards(usize::MAX / 2, SamplerKind::Reference), 1);
-        for kernel in [SamplerKind::Exact, SamplerKind::Metropolis] {
+        for kernel in [SamplerKind::Exact, SamplerKind::Metropolis, SamplerKind::Sparse] {
             let per = tokens_per_shard(kernel).unwrap();
             assert_eq!(default_shards(0, kernel), 1);
             assert_eq!(default_shards(per, kernel), 1);
@@ -680,7 +688,7 @@ mod tests {
                 alpha: vec![0.3; 4],
                 beta: BetaPrior::Symmetric(0.1),
             };
-            for kind in [SamplerKind::Exact, SamplerKind::Metropolis] {
+            for kind in [SamplerKind::Exact, SamplerKind::Metropolis, SamplerKind::Sparse] {
                 let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(5);
                 let mut state = CountState::random(&corpus, 4, &mut rng);
                 let mut sampler = ShardedSampler::new(&corpus, 2, kind).unwrap();
