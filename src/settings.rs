@@ -535,7 +535,7 @@ pub struct FitOptions {
         long,
         value_enum,
         value_name = "NAME",
-        help = help(&format!("Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), both parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (exact up to {EXACT_UP_TO_TOPICS} topics, metropolis above)"), "auto")
+        help = help(&format!("Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), `sparse` (exact draws at O(document length + log K) per token, for short documents and many topics), all three parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (exact up to {EXACT_UP_TO_TOPICS} topics, metropolis above)"), "auto")
     )]
     pub sampler: Option<SamplerChoice>,
     #[arg(
@@ -739,7 +739,7 @@ fn check_prior(
 fn default_shards_help() -> String {
     let per_shard = |kind| sampler::tokens_per_shard(kind).map_or_else(String::new, thousands);
     format!(
-        "one per {} tokens for exact, {} for metropolis, at most {MAX_AUTO_SHARDS}",
+        "one per {} tokens for exact, {} for metropolis and sparse, at most {MAX_AUTO_SHARDS}",
         per_shard(SamplerKind::Exact),
         per_shard(SamplerKind::Metropolis)
     )

@@ -103,7 +103,7 @@ pub struct FitSettings {
     /// The sampler asked for.
     pub sampler: SamplerChoice,
     /// Shards for parallel sweeps; `None` picks one per 524,288 tokens (exact)
-    /// or 262,144 tokens (Metropolis-Hastings), at most 8.
+    /// or 262,144 tokens (Metropolis-Hastings, sparse), at most 8.
     pub shards: Option<usize>,
 }
 

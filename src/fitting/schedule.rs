@@ -16,6 +16,10 @@ pub enum SamplerKind {
     /// Metropolis-Hastings steps with O(1) document and word proposals,
     /// over the block grid in parallel.
     Metropolis,
+    /// Exact draws split into a document part and a prior part kept in a
+    /// sum tree, O(document length + log K) per token, over the block grid
+    /// in parallel.
+    Sparse,
 }
 
 impl SamplerKind {
@@ -25,6 +29,7 @@ impl SamplerKind {
             SamplerKind::Reference => "reference",
             SamplerKind::Exact => "exact",
             SamplerKind::Metropolis => "metropolis",
+            SamplerKind::Sparse => "sparse",
         }
     }
 
@@ -34,6 +39,7 @@ impl SamplerKind {
             SamplerKind::Reference,
             SamplerKind::Exact,
             SamplerKind::Metropolis,
+            SamplerKind::Sparse,
         ]
         .into_iter()
         .find(|kind| kind.name() == name)
@@ -66,6 +72,8 @@ pub enum SamplerChoice {
     Exact,
     /// Metropolis-Hastings with O(1) document and word proposals, parallel over blocks.
     Metropolis,
+    /// Exact draws at O(document length + log K) per token, parallel over blocks.
+    Sparse,
     /// The plain O(K) collapsed Gibbs sweep, on one thread.
     Reference,
 }
@@ -77,6 +85,7 @@ impl SamplerChoice {
             SamplerChoice::Reference => SamplerKind::Reference,
             SamplerChoice::Exact => SamplerKind::Exact,
             SamplerChoice::Metropolis => SamplerKind::Metropolis,
+            SamplerChoice::Sparse => SamplerKind::Sparse,
             SamplerChoice::Auto if n_topics <= EXACT_UP_TO_TOPICS => SamplerKind::Exact,
             SamplerChoice::Auto => SamplerKind::Metropolis,
         }

@@ -912,7 +912,7 @@ fn bench_runs_quickly_and_prints_its_tables() {
 fn fit_accepts_each_sampler_and_rejects_unknown_ones() {
     let scratch = Scratch::new();
     build_corpus(&scratch);
-    for sampler in ["exact", "metropolis", "reference", "auto"] {
+    for sampler in ["exact", "metropolis", "sparse", "reference", "auto"] {
         themata(scratch.root())
             .args(["fit", "corpus.bin", "-k", "3", "--iterations", "20", "--quiet"])
             .args(["--sampler", sampler, "--shards", "2", "--out", sampler])

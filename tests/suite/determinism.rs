@@ -34,6 +34,7 @@ fn same_seed_same_bytes_for_any_thread_count() {
     for sampler in [
         SamplerChoice::Exact,
         SamplerChoice::Metropolis,
+        SamplerChoice::Sparse,
         SamplerChoice::Reference,
     ] {
         let one = encoded_model(7, 1, sampler);

@@ -56,37 +56,87 @@ pub struct WordRecord {
     pub len: usize,
 }
 
-/// Packs a word-major entry: the token's position in the sampler's order and its topic.
-#[inline]
-pub fn pack_entry(position: usize, topic: Topic) -> u64 {
-    ((position as u64) << 16) | u64::from(topic)
+/// Where each token sits in the sampler's order: for position `i` of a
+/// document in the sampler's order (tokens sorted by word), the offset of
+/// that token within the document in corpus order. Offsets take 16 bits
+/// when every document has at most 65,536 tokens, 32 bits otherwise.
+#[derive(Clone, Debug)]
+pub enum LocalOrder {
+    /// Offsets of documents of at most 65,536 tokens.
+    Narrow(Vec<u16>),
+    /// Offsets when some document is longer.
+    Wide(Vec<u32>),
 }
 
-/// Unpacks a word-major entry.
-#[inline]
-pub fn unpack_entry(entry: u64) -> (usize, Topic) {
-    ((entry >> 16) as usize, (entry & 0xFFFF) as Topic)
+impl LocalOrder {
+    /// Offsets for `n_tokens` tokens in documents of at most `longest` tokens, all zero.
+    pub fn zeroed(n_tokens: usize, longest: usize) -> LocalOrder {
+        if longest <= 1 << 16 {
+            LocalOrder::Narrow(vec![0; n_tokens])
+        } else {
+            LocalOrder::Wide(vec![0; n_tokens])
+        }
+    }
+
+    /// The corpus offset within its document of the token at sampler `position`.
+    #[inline(always)]
+    pub fn get(&self, position: usize) -> usize {
+        match self {
+            LocalOrder::Narrow(offsets) => offsets[position] as usize,
+            LocalOrder::Wide(offsets) => offsets[position] as usize,
+        }
+    }
+
+    /// Sets the offset of sampler `position` (which fits: see [`LocalOrder::zeroed`]).
+    pub fn set(&mut self, position: usize, offset: usize) {
+        match self {
+            LocalOrder::Narrow(offsets) => offsets[position] = offset as u16,
+            LocalOrder::Wide(offsets) => offsets[position] = offset as u32,
+        }
+    }
+
+    /// Bytes held.
+    pub fn heap_bytes(&self) -> usize {
+        match self {
+            LocalOrder::Narrow(offsets) => offsets.len() * 2,
+            LocalOrder::Wide(offsets) => offsets.len() * 4,
+        }
+    }
 }
 
 /// What every block of an epoch reads and none writes.
 pub struct BlockContext<'a> {
     /// Document offsets (the same in corpus and sampler order).
     pub offsets: &'a [u64],
-    /// Word of each token, in sampler order.
-    pub words: &'a [u32],
-    /// Entry slot of each token, in sampler order.
-    pub slot_of: &'a [u32],
+    /// The corpus's word ids, in corpus order.
+    pub tokens: &'a [u32],
+    /// Where each sampler position's token sits in corpus order.
+    pub local: &'a LocalOrder,
     /// Per word: row and entry range.
     pub records: &'a [WordRecord],
     /// Where each document's word groups start (see `ShardedSampler::doc_groups`).
     pub doc_groups: &'a [u32],
     /// Entries per document in `doc_groups` (P + 1).
     pub groups_stride: usize,
+    /// For kernels that read the word-major list: `shard_slots[p * V + w]`
+    /// is the slot of shard p's first token of word w (the tokens of a word
+    /// are listed in sampler order, so shard p's follow on from there).
+    /// Empty for the other kernels.
+    pub shard_slots: &'a [u32],
     /// Topic totals at the start of the epoch.
     pub start_totals: &'a [u64],
     pub n_topics: usize,
     pub seed: u64,
     pub iteration: u64,
+}
+
+impl BlockContext<'_> {
+    /// The word of the token at sampler `position`, in the document whose
+    /// first token is at `doc_start`.
+    #[inline(always)]
+    pub fn word_at(&self, doc_start: usize, position: usize) -> u32 {
+        self.tokens[doc_start + self.local.get(position)]
+    }
 }
 
 /// One block's exclusive share of the state.
@@ -97,10 +147,13 @@ pub struct Block<'a> {
     pub shard: &'a Shard,
     /// Word group q.
     pub group: usize,
-    /// The shard's topics (sampler order), from position `shard.tokens.start`.
+    /// The words of group q.
+    pub words: Range<usize>,
+    /// The shard's topics in sampler order, from position `shard.tokens.start`.
     pub topics: &'a mut [Topic],
-    /// Word group q's entries, from slot `first_slot`.
-    pub entries: &'a mut [u64],
+    /// Word group q's entries of the word-major list (each token's topic),
+    /// from slot `first_slot`; empty for kernels that do not read the list.
+    pub entries: &'a mut [Topic],
     pub first_slot: usize,
     /// Word group q's rows of the word-topic table.
     pub rows: RowsMut<'a>,

@@ -309,6 +309,7 @@ impl WordTopicCounts {
             let (part, tail) = std::mem::take(&mut rest).split_at_mut(end - consumed);
             parts.push(RowsMut {
                 words: pair[0]..pair[1],
+                n_topics: self.n_topics,
                 offset: consumed,
                 cells: part,
             });
@@ -347,6 +348,7 @@ fn remove_cell(row: &mut [u32], mut hole: u32, mask: u32) {
 /// [`RowLayout`] in the whole table.
 pub struct RowsMut<'a> {
     words: std::ops::Range<usize>,
+    n_topics: usize,
     offset: usize,
     cells: &'a mut [u32],
 }
@@ -385,6 +387,27 @@ impl RowsMut<'_> {
     #[inline]
     pub fn clear_dense(&self, layout: RowLayout, scratch: &mut [u32]) {
         row_clear_dense(self.cells, self.offset, layout, scratch);
+    }
+
+    /// Calls `f(topic, count)` for every non-zero count of row `layout`, in
+    /// no particular order (a sparse row's cell order depends on the order
+    /// of past updates): only for work whose outcome does not depend on it.
+    #[inline]
+    pub fn for_each_nonzero(&self, layout: RowLayout, mut f: impl FnMut(Topic, u32)) {
+        let start = layout.start - self.offset;
+        if layout.mask == DENSE {
+            for (topic, &count) in self.cells[start..start + self.n_topics].iter().enumerate() {
+                if count > 0 {
+                    f(topic as Topic, count);
+                }
+            }
+        } else {
+            for &cell in &self.cells[start..=start + layout.mask as usize] {
+                if cell != 0 {
+                    f(cell_topic(cell), cell_count(cell));
+                }
+            }
+        }
     }
 
     /// Hints that `topic`'s cell of row `layout` will be read soon.

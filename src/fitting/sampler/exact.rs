@@ -173,14 +173,16 @@ impl BlockKernel for ExactKernel<'_> {
             }
             // The word and new topic of the token just sampled in this document.
             let mut repeat_of: Option<(usize, Topic)> = None;
+            let doc_start = context.offsets[doc] as usize;
             for position in first..end {
-                if let Some(&ahead) = context.words.get(position + RECORD_AHEAD)
-                    && position + RECORD_AHEAD < end
-                {
-                    prefetch(context.records, ahead as usize);
+                if position + RECORD_AHEAD < end {
+                    prefetch(
+                        context.records,
+                        context.word_at(doc_start, position + RECORD_AHEAD) as usize,
+                    );
                 }
                 let local = position - first_token;
-                let word = context.words[position] as usize;
+                let word = context.word_at(doc_start, position) as usize;
                 let row = context.records[word].row;
                 let beta = self.priors.beta_of(word);
                 let old = topics[local];

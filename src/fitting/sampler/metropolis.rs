@@ -29,7 +29,7 @@ use rand::RngExt;
 use rand_distr::Distribution;
 use rand_distr::weighted::WeightedAliasIndex;
 
-use super::block::{Block, BlockContext, BlockKernel, WordRecord, block_stream, pack_entry, unpack_entry};
+use super::block::{Block, BlockContext, BlockKernel, WordRecord, block_stream};
 use super::counts::{RowLayout, RowsMut};
 use super::prefetch::prefetch;
 use super::{Priors, Topic};
@@ -120,6 +120,11 @@ pub struct MetropolisScratch {
     doc_counts: Vec<u32>,
     /// The current block's token positions.
     positions: Vec<u32>,
+    /// The word of each of those positions.
+    words: Vec<u32>,
+    /// For each word of the block's group, the slot in the word-major list
+    /// of its next token in this block.
+    next_slot: Vec<usize>,
 }
 
 impl MetropolisKernel<'_> {
@@ -235,6 +240,7 @@ impl BlockKernel for MetropolisKernel<'_> {
             index,
             shard,
             group,
+            words: group_words,
             topics,
             entries,
             first_slot,
@@ -244,17 +250,30 @@ impl BlockKernel for MetropolisKernel<'_> {
         let MetropolisScratch {
             doc_counts,
             positions,
+            words,
+            next_slot,
         } = scratch;
         let mut rng = block_stream(context.seed, context.iteration, index);
         let records = context.records;
-        let words = context.words;
         let first_token = shard.tokens.start;
         let stride = context.groups_stride;
         positions.clear();
+        words.clear();
         for doc in shard.docs.clone() {
             let groups = &context.doc_groups[doc * stride..(doc + 1) * stride];
-            positions.extend(groups[group]..groups[group + 1]);
+            let doc_start = context.offsets[doc] as usize;
+            for position in groups[group]..groups[group + 1] {
+                positions.push(position);
+                words.push(context.word_at(doc_start, position as usize));
+            }
         }
+        // A block visits each word's tokens of its shard in sampler order,
+        // which is the order of the word-major list; so the k-th token of
+        // word w visited here has slot `shard_slots[p * V + w] + k`.
+        let shard_slots =
+            &context.shard_slots[shard.index * records.len()..(shard.index + 1) * records.len()];
+        next_slot.clear();
+        next_slot.extend(shard_slots[group_words.clone()].iter().map(|&slot| slot as usize));
         let n_positions = positions.len();
         let beta_sum = self.beta_sum;
         let alpha = self.priors.alpha.as_slice();
@@ -278,7 +297,7 @@ impl BlockKernel for MetropolisKernel<'_> {
         let mut plans = [Plan::default(); PLAN_RING];
         for (ahead, plan) in plans.iter_mut().enumerate().take(PLAN_AHEAD.min(n_positions)) {
             let position = positions[ahead] as usize;
-            *plan = self.plan(records, words[position], doc_of(position), &mut rng);
+            *plan = self.plan(records, words[ahead], doc_of(position), &mut rng);
         }
         let mut docs = shard.docs.clone();
         let (mut doc_start, mut doc_end) = (first_token, first_token);
@@ -297,12 +316,12 @@ impl BlockKernel for MetropolisKernel<'_> {
                     doc_counts[topic as usize] += 1;
                 }
             }
-            if let Some(&ahead) = positions.get(step + RECORD_AHEAD) {
-                prefetch(records, words[ahead as usize] as usize);
+            if let Some(&ahead) = words.get(step + RECORD_AHEAD) {
+                prefetch(records, ahead as usize);
             }
             if let Some(&ahead) = positions.get(step + PLAN_AHEAD) {
                 let ahead = ahead as usize;
-                let plan = self.plan(records, words[ahead], doc_of(ahead), &mut rng);
+                let plan = self.plan(records, words[step + PLAN_AHEAD], doc_of(ahead), &mut rng);
                 for pick in plan.word_picks {
                     if let WordPick::Entry(slot) = pick {
                         prefetch(entries, slot - first_slot);
@@ -324,6 +343,11 @@ impl BlockKernel for MetropolisKernel<'_> {
             let plan = plans[step % PLAN_RING];
             let beta = plan.beta;
             let local = position - first_token;
+            let my_slot = {
+                let next = &mut next_slot[words[step] as usize - group_words.start];
+                *next += 1;
+                *next - 1
+            };
             // Token i leaves the document and topic counts here; it stays in
             // the word-topic table, which is read as `n_kw - [k = start]` and
             // changed at the end only if the topic moved.
@@ -359,10 +383,10 @@ impl BlockKernel for MetropolisKernel<'_> {
 
                 // Word proposal.
                 let proposed = match word_pick {
-                    WordPick::Entry(slot) => match unpack_entry(entries[slot - first_slot]) {
-                        (token, _) if token == position => current,
-                        (_, topic) => topic,
-                    },
+                    // Token i's own entry holds its topic as of the start
+                    // of its steps; it proposes the current one.
+                    WordPick::Entry(slot) if slot == my_slot => current,
+                    WordPick::Entry(slot) => entries[slot - first_slot],
                     WordPick::Uniform(topic) => topic,
                 };
                 if proposed != current {
@@ -383,7 +407,7 @@ impl BlockKernel for MetropolisKernel<'_> {
             if current != start {
                 rows.decrement(plan.row, start);
                 rows.increment(plan.row, current);
-                entries[context.slot_of[position] as usize - first_slot] = pack_entry(position, current);
+                entries[my_slot - first_slot] = current;
             }
         }
         for &topic in &topics[doc_start - first_token..doc_end - first_token] {

@@ -14,6 +14,7 @@ mod metropolis;
 mod prefetch;
 mod reference;
 mod sharded;
+mod sparse;
 
 pub use block::{BlockKernel, Shard, block_stream, splitmix64};
 pub use counts::{RowLayout, RowsMut, WordTopicCounts};

@@ -19,21 +19,28 @@
 //! block); integer totals add up the same in any order. So the same seed
 //! gives the same state for any number of threads.
 //!
-//! The sampler keeps its own copy of the tokens: documents stay contiguous
-//! and in corpus order, but within a document tokens are sorted by word, so
-//! that a block's tokens of one document are contiguous. It also keeps a
-//! word-major list of every token and its current topic ([`WordRecord`] says
-//! where a word's entries are), from which word proposals draw; entries of a
-//! word group are written only by the block that owns the group.
+//! The sampler visits tokens in its own order: documents stay contiguous and
+//! in corpus order, but within a document tokens are sorted by word, so that
+//! a block's tokens of one document are contiguous. It keeps no copy of the
+//! tokens or topics for that: only each position's offset within its
+//! document in corpus order ([`LocalOrder`], 16 bits a token for documents
+//! of up to 65,536 tokens), by which a sweep permutes the state's topics
+//! into its order in place at the start and back at the end, and by which a
+//! kernel finds a position's word in the corpus. For kernels that read it,
+//! it also keeps a word-major list of every token's current topic
+//! ([`WordRecord`] says where a word's entries are), from which word
+//! proposals draw; entries of a word group are written only by the block
+//! that owns the group.
 
 use std::sync::Mutex;
 
 use rayon::prelude::*;
 
-use super::block::{Block, BlockContext, BlockKernel, Shard, WordRecord, pack_entry, unpack_entry};
+use super::block::{Block, BlockContext, BlockKernel, LocalOrder, Shard, WordRecord};
 use super::counts::RowsMut;
 use super::exact::ExactKernel;
 use super::metropolis::MetropolisKernel;
+use super::sparse::SparseKernel;
 use super::{CountState, Priors, Topic};
 use crate::fitting::schedule::SamplerKind;
 use crate::ingest::corpus::Corpus;
@@ -53,6 +60,7 @@ pub fn tokens_per_shard(kind: SamplerKind) -> Option<usize> {
         SamplerKind::Reference => None,
         SamplerKind::Exact => Some(ExactKernel::TOKENS_PER_SHARD),
         SamplerKind::Metropolis => Some(MetropolisKernel::TOKENS_PER_SHARD),
+        SamplerKind::Sparse => Some(SparseKernel::TOKENS_PER_SHARD),
     }
 }
 
@@ -72,6 +80,7 @@ fn word_costs(kind: SamplerKind, corpus: &Corpus, word_tokens: &[u64]) -> Vec<u6
     }
     let cost = match kind {
         SamplerKind::Metropolis => MetropolisKernel::word_cost,
+        SamplerKind::Sparse => SparseKernel::word_cost,
         SamplerKind::Exact | SamplerKind::Reference => ExactKernel::word_cost,
     };
     word_tokens
@@ -153,6 +162,16 @@ pub fn plan_word_groups(word_costs: &[u64], n_groups: usize) -> Vec<usize> {
     bounds
 }
 
+/// Whether the kernel of `kind` reads the word-major list.
+fn uses_word_list(kind: SamplerKind) -> bool {
+    match kind {
+        SamplerKind::Exact => ExactKernel::USES_WORD_LIST,
+        SamplerKind::Metropolis => MetropolisKernel::USES_WORD_LIST,
+        SamplerKind::Sparse => SparseKernel::USES_WORD_LIST,
+        SamplerKind::Reference => false,
+    }
+}
+
 /// A sampler that sweeps over a grid of blocks in parallel. It keeps
 /// per-corpus working memory between sweeps; it is rebuilt, not saved, when
 /// a model is loaded.
@@ -163,18 +182,16 @@ pub struct ShardedSampler {
     shards: Vec<Shard>,
     word_bounds: Vec<usize>,
     slot_bounds: Vec<usize>,
-    /// Word of each token, in sampler order.
-    words: Vec<u32>,
-    /// Corpus position of each token in sampler order.
-    source: Vec<u32>,
-    /// Topic of each token, in sampler order (valid during a sweep).
-    topics: Vec<Topic>,
-    /// Entry slot of each token, in sampler order.
-    slot_of: Vec<u32>,
-    /// Word-major entries (`pack_entry`).
-    entries: Vec<u64>,
+    /// Corpus offset within its document of each sampler position.
+    local: LocalOrder,
+    /// Word-major list: the topic of every token, word by word, each word's
+    /// tokens in sampler order (empty when the kernel does not read it).
+    entries: Vec<Topic>,
     /// `word_first[w]..word_first[w + 1]` are word w's entries.
     word_first: Vec<usize>,
+    /// `shard_slots[p * V + w]`: the slot of shard p's first token of word w
+    /// (empty when the kernel does not read the word-major list).
+    shard_slots: Vec<u32>,
     /// For document d, `doc_groups[d * (P + 1) + q]` is the sampler position
     /// where its tokens of word group q start.
     doc_groups: Vec<u32>,
@@ -210,51 +227,65 @@ impl ShardedSampler {
             group_of_word[pair[0]..pair[1]].fill(group as u32);
         }
 
-        // Sampler order: documents in corpus order, tokens within a document by word.
-        let mut source: Vec<u32> = (0..n_tokens as u32).collect();
+        // Sampler order: documents in corpus order, tokens within a document
+        // by word (ties in corpus order). A block's cost: its tokens, each
+        // weighted by its word's cost per token.
+        let longest = (0..corpus.n_docs())
+            .map(|doc| (corpus.offsets[doc + 1] - corpus.offsets[doc]) as usize)
+            .max()
+            .unwrap_or(0);
+        let mut local = LocalOrder::zeroed(n_tokens, longest);
         let mut doc_groups = Vec::with_capacity(corpus.n_docs() * (n_groups + 1));
-        for doc_idx in 0..corpus.n_docs() {
-            let range = corpus.offsets[doc_idx] as usize..corpus.offsets[doc_idx + 1] as usize;
-            source[range.clone()].sort_by_key(|&token| (corpus.tokens[token as usize], token));
-            let mut position = range.start;
-            for group in 0..=n_groups {
-                while position < range.end
-                    && (group_of_word[corpus.tokens[source[position] as usize] as usize] as usize) < group
-                {
-                    position += 1;
-                }
-                doc_groups.push(if group == n_groups { range.end } else { position } as u32);
-            }
-        }
-        let words: Vec<u32> = source
-            .iter()
-            .map(|&token| corpus.tokens[token as usize])
-            .collect();
-        // A block's cost: its tokens, each weighted by its word's cost per token.
         let mut block_costs = vec![0.0; n_groups * n_groups];
+        let mut order: Vec<u32> = Vec::new();
         for shard in &shards {
-            for position in shard.tokens.clone() {
-                let word = words[position] as usize;
-                let group = group_of_word[word] as usize;
-                block_costs[shard.index * n_groups + group] +=
-                    word_costs[word] as f64 / word_tokens[word] as f64;
+            for doc_idx in shard.docs.clone() {
+                let range = corpus.offsets[doc_idx] as usize..corpus.offsets[doc_idx + 1] as usize;
+                let doc_tokens = &corpus.tokens[range.clone()];
+                order.clear();
+                order.extend(0..doc_tokens.len() as u32);
+                // A stable sort, so tokens of one word keep their corpus order.
+                order.sort_by_key(|&offset| doc_tokens[offset as usize]);
+                for (rank, &offset) in order.iter().enumerate() {
+                    local.set(range.start + rank, offset as usize);
+                    let word = doc_tokens[offset as usize] as usize;
+                    block_costs[shard.index * n_groups + group_of_word[word] as usize] +=
+                        word_costs[word] as f64 / word_tokens[word] as f64;
+                }
+                let mut rank = 0;
+                for group in 0..=n_groups {
+                    while rank < order.len()
+                        && (group_of_word[doc_tokens[order[rank] as usize] as usize] as usize) < group
+                    {
+                        rank += 1;
+                    }
+                    doc_groups.push(if group == n_groups {
+                        range.end
+                    } else {
+                        range.start + rank
+                    } as u32);
+                }
             }
         }
 
-        // Word-major entries and each token's slot.
+        // The word-major list: each word's tokens, shard after shard.
         let mut word_first = vec![0usize; n_words + 1];
         for (word, &count) in word_tokens.iter().enumerate() {
             word_first[word + 1] = word_first[word] + count as usize;
         }
-        let mut next = word_first.clone();
-        let mut entries = vec![0u64; n_tokens];
-        let mut slot_of = vec![0u32; n_tokens];
-        for (position, &word) in words.iter().enumerate() {
-            let slot = &mut next[word as usize];
-            entries[*slot] = pack_entry(position, 0);
-            slot_of[position] = *slot as u32;
-            *slot += 1;
-        }
+        let (entries, shard_slots) = if uses_word_list(kind) {
+            let mut seen = vec![0usize; n_words];
+            let mut shard_slots = Vec::with_capacity(n_groups * n_words);
+            for shard in &shards {
+                shard_slots.extend((0..n_words).map(|word| (word_first[word] + seen[word]) as u32));
+                for &word in &corpus.tokens[shard.tokens.clone()] {
+                    seen[word as usize] += 1;
+                }
+            }
+            (vec![0; n_tokens], shard_slots)
+        } else {
+            (Vec::new(), Vec::new())
+        };
         let slot_bounds = word_bounds.iter().map(|&word| word_first[word]).collect();
 
         Some(ShardedSampler {
@@ -262,12 +293,10 @@ impl ShardedSampler {
             shards,
             word_bounds,
             slot_bounds,
-            words,
-            source,
-            topics: vec![0; n_tokens],
-            slot_of,
+            local,
             entries,
             word_first,
+            shard_slots,
             doc_groups,
             block_costs,
             records: Vec::new(),
@@ -281,11 +310,10 @@ impl ShardedSampler {
 
     /// Bytes of working memory held besides the state.
     pub fn heap_bytes(&self) -> usize {
-        self.words.len() * 4
-            + self.source.len() * 4
-            + self.topics.len() * std::mem::size_of::<Topic>()
-            + self.slot_of.len() * 4
-            + self.entries.len() * 8
+        self.local.heap_bytes()
+            + self.entries.len() * std::mem::size_of::<Topic>()
+            + self.word_first.len() * std::mem::size_of::<usize>()
+            + self.shard_slots.len() * 4
             + self.doc_groups.len() * 4
             + self.block_costs.len() * 8
             + self.records.len() * std::mem::size_of::<WordRecord>()
@@ -310,13 +338,18 @@ impl ShardedSampler {
                 let kernel = MetropolisKernel::new(priors, n_topics, n_words);
                 self.sweep_with(&kernel, state, corpus, seed, iteration);
             }
+            SamplerKind::Sparse => {
+                let kernel = SparseKernel::new(priors, n_topics, n_words);
+                self.sweep_with(&kernel, state, corpus, seed, iteration);
+            }
             // `new` builds no driver for the reference sweep.
             SamplerKind::Reference => unreachable!("the reference sweep does not run on the block grid"),
         }
     }
 
-    /// One sweep of `kernel` over every block, epoch by epoch.
-    fn sweep_with<K: BlockKernel>(
+    /// One sweep of `kernel` over every block, epoch by epoch. The state's
+    /// topics are in sampler order from `load` to `store`.
+    pub(super) fn sweep_with<K: BlockKernel>(
         &mut self,
         kernel: &K,
         state: &mut CountState,
@@ -324,7 +357,7 @@ impl ShardedSampler {
         seed: u64,
         iteration: u64,
     ) {
-        self.load(state, K::USES_WORD_LIST);
+        self.load(state, corpus);
         let n_groups = self.shards.len();
         let n_threads = rayon::current_num_threads().max(1);
         let workspaces: Vec<Mutex<Option<Workspace<K::Scratch>>>> =
@@ -333,36 +366,42 @@ impl ShardedSampler {
             shards,
             word_bounds,
             slot_bounds,
-            words,
-            topics,
-            slot_of,
+            local,
             entries,
+            shard_slots,
             doc_groups,
             block_costs,
             records,
             ..
         } = self;
-        let doc_groups = &*doc_groups;
+        let with_entries = !entries.is_empty();
         for epoch in 0..n_groups {
             let start_totals = state.topic_totals.clone();
             let context = BlockContext {
                 offsets: &corpus.offsets,
-                words,
-                slot_of,
+                tokens: &corpus.tokens,
+                local,
                 records,
                 doc_groups,
                 groups_stride: n_groups + 1,
+                shard_slots,
                 start_totals: &start_totals,
                 n_topics: state.n_topics,
                 seed,
                 iteration,
             };
-            let mut topic_parts = split_by(topics, shards.iter().map(|shard| shard.tokens.end));
-            let mut entry_parts: Vec<Option<&mut [u64]>> =
+            let mut topic_parts = split_by(
+                &mut state.assignments,
+                shards.iter().map(|shard| shard.tokens.end),
+            );
+            let mut entry_parts: Vec<Option<&mut [Topic]>> = if with_entries {
                 split_by(entries, slot_bounds[1..].iter().copied())
                     .into_iter()
                     .map(Some)
-                    .collect();
+                    .collect()
+            } else {
+                (0..n_groups).map(|_| Some(&mut [][..])).collect()
+            };
             let mut row_parts: Vec<Option<RowsMut<'_>>> = state
                 .word_topic
                 .split_by_words(word_bounds)
@@ -378,6 +417,7 @@ impl ShardedSampler {
                         index: shard.index * n_groups + group,
                         shard,
                         group,
+                        words: word_bounds[group]..word_bounds[group + 1],
                         topics,
                         entries: entry_parts[group].take().expect("each group once per epoch"),
                         first_slot: slot_bounds[group],
@@ -428,12 +468,13 @@ impl ShardedSampler {
                 }
             }
         }
-        self.store(state);
+        self.store(state, corpus);
     }
 
-    /// Copies the state's topics into sampler order, and into the word-major
-    /// list when `with_entries` (only the Metropolis-Hastings kernel reads it).
-    fn load(&mut self, state: &CountState, with_entries: bool) {
+    /// Puts the state's topics into sampler order (document by document, in
+    /// place), and copies them into the word-major list when the kernel
+    /// reads it.
+    fn load(&mut self, state: &mut CountState, corpus: &Corpus) {
         if self.records.len() != state.n_words {
             let word_first = &self.word_first;
             self.records = (0..state.n_words)
@@ -444,43 +485,79 @@ impl ShardedSampler {
                 })
                 .collect();
         }
-        let source = &self.source;
-        let assignments = &state.assignments;
-        self.topics
-            .par_chunks_mut(1 << 14)
-            .zip(source.par_chunks(1 << 14))
-            .for_each(|(topics, source)| {
-                for (topic, &token) in topics.iter_mut().zip(source) {
-                    *topic = assignments[token as usize];
-                }
-            });
-        if !with_entries {
-            return;
-        }
-        let topics = &self.topics;
-        self.entries.par_chunks_mut(1 << 14).for_each(|entries| {
-            for entry in entries {
-                let (position, _) = unpack_entry(*entry);
-                *entry = pack_entry(position, topics[position]);
-            }
-        });
-    }
-
-    /// Copies the topics back into the state's corpus order.
-    fn store(&self, state: &mut CountState) {
-        let parts = split_by(
+        let local = &self.local;
+        let offsets = &corpus.offsets;
+        split_by(
             &mut state.assignments,
             self.shards.iter().map(|shard| shard.tokens.end),
-        );
-        parts
+        )
+        .into_par_iter()
+        .zip(&self.shards)
+        .for_each(|(topics, shard)| {
+            let first = shard.tokens.start;
+            let mut corpus_order: Vec<Topic> = Vec::new();
+            for doc in shard.docs.clone() {
+                let range = offsets[doc] as usize - first..offsets[doc + 1] as usize - first;
+                corpus_order.clear();
+                corpus_order.extend_from_slice(&topics[range.clone()]);
+                for (position, topic) in (first + range.start..).zip(&mut topics[range]) {
+                    *topic = corpus_order[local.get(position)];
+                }
+            }
+        });
+        if self.entries.is_empty() {
+            return;
+        }
+        let n_groups = self.shards.len();
+        let stride = n_groups + 1;
+        let (word_bounds, word_first, doc_groups) = (&self.word_bounds, &self.word_first, &self.doc_groups);
+        let (tokens, topics) = (&corpus.tokens, &state.assignments);
+        let slot_bounds = &self.slot_bounds;
+        split_by(&mut self.entries, slot_bounds[1..].iter().copied())
             .into_par_iter()
-            .zip(&self.shards)
-            .for_each(|(assignments, shard)| {
-                let first = shard.tokens.start;
-                for position in shard.tokens.clone() {
-                    assignments[self.source[position] as usize - first] = self.topics[position];
+            .enumerate()
+            .for_each(|(group, entries)| {
+                let words = word_bounds[group]..word_bounds[group + 1];
+                let mut next: Vec<usize> = word_first[words.clone()]
+                    .iter()
+                    .map(|&first| first - slot_bounds[group])
+                    .collect();
+                for doc in 0..corpus.n_docs() {
+                    let doc_start = offsets[doc] as usize;
+                    let run = doc_groups[doc * stride + group] as usize
+                        ..doc_groups[doc * stride + group + 1] as usize;
+                    for position in run {
+                        let word = tokens[doc_start + local.get(position)] as usize;
+                        let slot = &mut next[word - words.start];
+                        entries[*slot] = topics[position];
+                        *slot += 1;
+                    }
                 }
             });
+    }
+
+    /// Puts the state's topics back into corpus order.
+    fn store(&self, state: &mut CountState, corpus: &Corpus) {
+        let local = &self.local;
+        let offsets = &corpus.offsets;
+        split_by(
+            &mut state.assignments,
+            self.shards.iter().map(|shard| shard.tokens.end),
+        )
+        .into_par_iter()
+        .zip(&self.shards)
+        .for_each(|(topics, shard)| {
+            let first = shard.tokens.start;
+            let mut sampler_order: Vec<Topic> = Vec::new();
+            for doc in shard.docs.clone() {
+                let range = offsets[doc] as usize - first..offsets[doc + 1] as usize - first;
+                sampler_order.clear();
+                sampler_order.extend_from_slice(&topics[range.clone()]);
+                for (position, &topic) in (first + range.start..).zip(&sampler_order) {
+                    topics[range.start + local.get(position)] = topic;
+                }
+            }
+        });
     }
 }
 
@@ -553,7 +630,7 @@ mod tests {
     fn default_shard_count_depends_on_tokens_and_kernel_only() {
         // Source: common practice — the plan must not depend on the machine.
         assert_eq!(default_shards(usize::MAX / 2, SamplerKind::Reference), 1);
-        for kernel in [SamplerKind::Exact, SamplerKind::Metropolis] {
+        for kernel in [SamplerKind::Exact, SamplerKind::Metropolis, SamplerKind::Sparse] {
             let per = tokens_per_shard(kernel).unwrap();
             assert_eq!(default_shards(0, kernel), 1);
             assert_eq!(default_shards(per, kernel), 1);
@@ -567,25 +644,61 @@ mod tests {
         // Source: common practice — a within-document permutation keeps every token once.
         let corpus = corpus(&[3, 4, 2]);
         let sampler = ShardedSampler::new(&corpus, 2, SamplerKind::Exact).unwrap();
-        let mut seen = sampler.source.clone();
-        seen.sort_unstable();
-        assert_eq!(seen, (0..9).collect::<Vec<u32>>());
         for doc in 0..3 {
             let range = corpus.offsets[doc] as usize..corpus.offsets[doc + 1] as usize;
-            assert!(
-                sampler.words[range.clone()]
-                    .windows(2)
-                    .all(|pair| pair[0] <= pair[1])
-            );
-            assert!(
-                sampler.source[range]
-                    .iter()
-                    .all(|&t| (corpus.offsets[doc]..corpus.offsets[doc + 1]).contains(&u64::from(t)))
-            );
+            let mut offsets: Vec<usize> = range
+                .clone()
+                .map(|position| sampler.local.get(position))
+                .collect();
+            let words: Vec<u32> = offsets
+                .iter()
+                .map(|&offset| corpus.tokens[range.start + offset])
+                .collect();
+            assert!(words.windows(2).all(|pair| pair[0] <= pair[1]), "{words:?}");
+            offsets.sort_unstable();
+            assert_eq!(offsets, (0..range.len()).collect::<Vec<usize>>());
         }
-        for (slot, &entry) in sampler.entries.iter().enumerate() {
-            let (position, _) = unpack_entry(entry);
-            assert_eq!(sampler.slot_of[position] as usize, slot);
+    }
+
+    #[test]
+    fn a_sweep_leaves_topics_in_corpus_order_with_narrow_and_wide_offsets() {
+        // Source: common practice — after a sweep the assignments, read in
+        // corpus order, must imply exactly the counts the sweep kept.
+        use crate::fitting::sampler::{BetaPrior, CountState, Priors};
+        use rand::SeedableRng;
+        let n_words = 7;
+        let vocabulary = Vocabulary::from_parts(
+            (0..n_words).map(|w| format!("w{w}")).collect(),
+            vec![1; n_words],
+            vec![1; n_words],
+        );
+        // A document longer than 65,536 tokens needs 32-bit offsets.
+        for lens in [vec![30usize, 5, 12, 40], vec![70_000, 9, 300]] {
+            let docs = lens
+                .iter()
+                .enumerate()
+                .map(|(d, &n)| {
+                    (0..n)
+                        .map(|i| ((i * 5 + d * 3 + i / 7) % n_words) as u32)
+                        .collect()
+                })
+                .collect();
+            let corpus = Corpus::from_documents(vocabulary.clone(), docs);
+            let priors = Priors {
+                alpha: vec![0.3; 4],
+                beta: BetaPrior::Symmetric(0.1),
+            };
+            for kind in [SamplerKind::Exact, SamplerKind::Metropolis, SamplerKind::Sparse] {
+                let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(5);
+                let mut state = CountState::random(&corpus, 4, &mut rng);
+                let mut sampler = ShardedSampler::new(&corpus, 2, kind).unwrap();
+                assert_eq!(matches!(sampler.local, LocalOrder::Wide(_)), lens[0] > 1 << 16);
+                for iteration in 1..=2 {
+                    sampler.sweep(&mut state, &corpus, &priors, 3, iteration);
+                }
+                let recounted = CountState::from_assignments(&corpus, 4, state.assignments.clone());
+                assert_eq!(recounted, state, "{kind:?}, documents of {lens:?} tokens");
+            }
         }
     }
 }
