@@ -81,7 +81,8 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
         ..args.records.resolve()?
     };
     let pool = themata::thread_pool(threads).map_err(Failure::system)?;
-    let view = DocumentView::of(&plan, model.n_topics());
+    let names = super::context::names_beside(&args.dir);
+    let view = DocumentView::of(&plan, model.n_topics()).with_names(names.as_ref());
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     // The header is written with the first rows (or at the end), so that a
@@ -108,6 +109,7 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
                     let row = report::placement_row(
                         &placement,
                         &model.priors.alpha,
+                        &model.topic_ids,
                         plan.selection,
                         args.interval,
                     )?;

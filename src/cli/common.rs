@@ -15,6 +15,7 @@ use themata::model::Model;
 use themata::model::folder;
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
+use themata::publish::names::TopicNames;
 use themata::report::numbers::Numbers;
 use themata::report::{
     self, DocumentLayout, DocumentView, ListingFormat, ListingPlan, TopicListing, WordLimit,
@@ -370,23 +371,27 @@ const DOCUMENTS_FILE: &str = "documents.tsv";
 const WIDE_DOCUMENTS_FILE: &str = "documents-wide.tsv";
 
 /// Writes a run's listings into its staged folder: `topics.tsv` and the
-/// documents in both layouts. Returns the topic listings for the printed
+/// documents in both layouts, with the editors' names when given. Returns the topic listings for the printed
 /// table.
 pub fn stage_listings(
     staged: &StagedFolder,
     model: &Model,
     top_words: usize,
     listing: &ListingPlan,
+    names: Option<&TopicNames>,
 ) -> Result<Vec<TopicListing>, Failure> {
-    let topics =
+    let mut topics =
         report::topic_listings(model, WordLimit::Top(top_words), DEFAULT_LEVEL).map_err(Failure::system)?;
+    if let Some(names) = names {
+        report::name_topics(&mut topics, names);
+    }
     let mut topics_tsv = Vec::new();
     report::write_topics(&mut topics_tsv, &topics, ListingFormat::Tsv, listing.numbers)
         .map_err(Failure::system)?;
     staged.write("topics.tsv", &topics_tsv)?;
     let rows = report::document_rows(model, listing.selection, DEFAULT_LEVEL, listing.merge_chunks)
         .map_err(Failure::system)?;
-    let view = DocumentView::of(listing, model.n_topics());
+    let view = DocumentView::of(listing, model.n_topics()).with_names(names);
     for (name, layout) in [
         (DOCUMENTS_FILE, DocumentLayout::Long),
         (WIDE_DOCUMENTS_FILE, DocumentLayout::Wide),

@@ -74,6 +74,19 @@ impl FolderContext {
     }
 }
 
+/// The editors' topic names for the model in `dir` when it belongs to a run
+/// root with a names file; a names file that cannot be read is a warning
+/// (the listing goes on without names).
+pub fn names_beside(dir: &Path) -> Option<TopicNames> {
+    match names::names_for_model_dir(dir) {
+        Ok(names) => (!names.is_empty()).then_some(names),
+        Err(err) => {
+            eprintln!("themata: warning: {err}; topics are shown without names");
+            None
+        }
+    }
+}
+
 /// A short name for the model in `dir`: the name of the folder it resolves
 /// to (so `ROOT/current` shows the run's name).
 pub fn model_title(dir: &Path) -> String {

@@ -89,7 +89,7 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     if let Some((_, score)) = heldout {
         summary = summary.with_heldout(score);
     }
-    let topics = stage_listings(&staged, &model, top_words, &listing)?;
+    let topics = stage_listings(&staged, &model, top_words, &listing, None)?;
     let report = themata::report::html::ReportContext {
         title: out_dir.file_name().map_or_else(
             || out_dir.display().to_string(),

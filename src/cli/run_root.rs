@@ -342,7 +342,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
     if let Some((_, score)) = &heldout {
         summary = summary.with_heldout(score.clone());
     }
-    let topics = stage_listings(&staged, &model, job.top_words, job.listing)?;
+    let topics = stage_listings(&staged, &model, job.top_words, job.listing, names.as_ref())?;
     stage_model(&staged, &model, &summary)?;
     let figures = GateFigures {
         matched_share: drift.as_ref().map(Drift::matched_share),

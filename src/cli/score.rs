@@ -127,7 +127,12 @@ pub fn run(args: ScoreArgs) -> Result<(), Failure> {
         let scored = score::score_heldout(&model, &documents, &settings).map_err(Failure::system)?;
         Some(scored)
     };
-    let coherence = coherence(&model, &args)?;
+    let mut coherence = coherence(&model, &args)?;
+    if let Some(names) = super::context::names_beside(&args.dir) {
+        for row in &mut coherence.per_topic {
+            row.name = names.get(row.topic).map(str::to_string);
+        }
+    }
     let output = ScoreOutput {
         heldout_perplexity: heldout.as_ref().and_then(|h| h.heldout_perplexity),
         method: heldout.as_ref().map(|h| h.method),
@@ -285,8 +290,13 @@ fn print_table(output: &ScoreOutput) -> Result<(), Failure> {
         "exclusiv"
     )?;
     for row in &c.per_topic {
+        let name = row
+            .name
+            .as_deref()
+            .map(|name| format!("{name}: "))
+            .unwrap_or_default();
         say!(
-            "{:>5}  {:>7.3}  {:>6.3}  {:>6.3}  {:>5.1}%  {:>9.1}%  {:>9.1}  {:>8.3}  {:>8.3}  {}",
+            "{:>5}  {:>7.3}  {:>6.3}  {:>6.3}  {:>5.1}%  {:>9.1}%  {:>9.1}  {:>8.3}  {:>8.3}  {name}{}",
             row.topic,
             row.umass,
             row.npmi,

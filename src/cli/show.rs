@@ -38,15 +38,20 @@ pub struct ShowArgs {
 pub fn run(args: ShowArgs) -> Result<(), Failure> {
     let plan = args.listing.resolve()?;
     let model = load_model(&args.dir)?;
+    let names = super::context::names_beside(&args.dir);
     let stdout = std::io::stdout();
     let mut out = std::io::BufWriter::new(stdout.lock());
     let written = if args.documents {
         let rows = report::document_rows(&model, plan.selection, args.interval, plan.merge_chunks)
             .map_err(Failure::bad_input)?;
-        let view = DocumentView::of(&plan, model.n_topics());
+        let view = DocumentView::of(&plan, model.n_topics()).with_names(names.as_ref());
         report::write_documents(&mut out, &rows, args.format, &view)
     } else {
-        let topics = report::topic_listings(&model, args.words, args.interval).map_err(Failure::bad_input)?;
+        let mut topics =
+            report::topic_listings(&model, args.words, args.interval).map_err(Failure::bad_input)?;
+        if let Some(names) = &names {
+            report::name_topics(&mut topics, names);
+        }
         report::write_topics(&mut out, &topics, args.format, plan.numbers)
     };
     written

@@ -439,7 +439,12 @@ pub fn split_corpus(corpus: &Corpus, held_out: &[bool]) -> (Corpus, Corpus) {
 /// Coherence and diagnostics of one topic, as reported by `themata score`.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct TopicQuality {
-    pub topic: usize,
+    /// The topic's id (its index outside a run root).
+    pub topic: u32,
+    /// The editors' name of the topic, when the model belongs to a run root
+    /// whose names file names it (filled in by the caller).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub name: Option<String>,
     pub top_words: Vec<String>,
     pub umass: f64,
     pub npmi: f64,
@@ -515,7 +520,8 @@ pub fn coherence_report<D: AsRef<[u32]> + Sync>(
         .iter()
         .zip(&diagnostics)
         .map(|(score, diag)| TopicQuality {
-            topic: score.topic,
+            topic: model.topic_ids[score.topic],
+            name: None,
             top_words: top[score.topic]
                 .iter()
                 .map(|&w| model.corpus.vocabulary.display(w).to_string())

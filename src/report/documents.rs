@@ -19,6 +19,7 @@ use crate::evaluate::score::{Placement, ScoreError};
 use crate::evaluate::uncertainty::UncertaintyError;
 use crate::ingest::corpus::chunk_groups;
 use crate::model::Model;
+use crate::publish::names::TopicNames;
 
 /// A topic is listed when its share is at least this, by default.
 pub const DEFAULT_MIN_SHARE: f64 = 0.01;
@@ -93,7 +94,8 @@ pub struct ListingPlan {
 /// One listed topic of a document: its share and credible interval.
 #[derive(Clone, Copy, Debug, PartialEq, Serialize)]
 pub struct TopicShare {
-    pub topic: usize,
+    /// The topic's id (its index outside a run root).
+    pub topic: u32,
     pub share: f64,
     pub low: f64,
     pub high: f64,
@@ -150,7 +152,7 @@ pub fn document_rows(
                 .map(|topic| {
                     let interval = model.documents_topic_interval(docs.clone(), topic, level)?;
                     Ok(TopicShare {
-                        topic,
+                        topic: model.topic_ids[topic],
                         share: shares[topic],
                         low: interval.low,
                         high: interval.high,
@@ -171,10 +173,11 @@ pub fn document_rows(
 
 /// A new document placed by `assign` as a listed row, intervals at `level`
 /// for the listed topics only. A document with no word the model knows is
-/// not placed and lists no topic.
+/// not placed and lists no topic. `topic_ids` are the model's ids by index.
 pub fn placement_row(
     placement: &Placement,
     alpha: &[f64],
+    topic_ids: &[u32],
     selection: TopicSelection,
     level: f64,
 ) -> Result<DocumentRow, ScoreError> {
@@ -187,7 +190,7 @@ pub fn placement_row(
             .map(|topic| {
                 let interval = placement.interval(alpha, topic, level)?;
                 Ok(TopicShare {
-                    topic,
+                    topic: topic_ids[topic],
                     share: placement.shares[topic],
                     low: interval.low,
                     high: interval.high,
@@ -205,39 +208,66 @@ pub fn placement_row(
     })
 }
 
-/// How rows are printed: layout, topic columns of the wide layout, digits.
+/// How rows are printed: layout, topic columns of the wide layout, digits,
+/// and the editors' topic names when the model belongs to a run root.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct DocumentView {
+pub struct DocumentView<'a> {
     pub layout: DocumentLayout,
     /// Topic columns of the wide layout.
     pub slots: usize,
     pub numbers: Numbers,
+    /// Names by topic id; with names, every topic column is followed by a
+    /// name column (empty for a topic no editor named).
+    pub names: Option<&'a TopicNames>,
 }
 
-impl DocumentView {
+impl<'a> DocumentView<'a> {
     /// The view of `plan` for a model of `n_topics` topics.
-    pub fn of(plan: &ListingPlan, n_topics: usize) -> DocumentView {
+    pub fn of(plan: &ListingPlan, n_topics: usize) -> DocumentView<'a> {
         DocumentView {
             layout: plan.layout,
             slots: plan.selection.wide_slots(n_topics),
             numbers: plan.numbers,
+            names: None,
         }
     }
 
     /// The same view in another layout.
-    pub fn with_layout(self, layout: DocumentLayout) -> DocumentView {
+    pub fn with_layout(self, layout: DocumentLayout) -> DocumentView<'a> {
         DocumentView { layout, ..self }
+    }
+
+    /// The same view with the topics' names (none when `names` is empty).
+    pub fn with_names(self, names: Option<&'a TopicNames>) -> DocumentView<'a> {
+        DocumentView {
+            names: names.filter(|names| !names.is_empty()),
+            ..self
+        }
+    }
+
+    /// The name of topic `id` as a TSV field (empty when unnamed).
+    fn name_field(&self, id: u32) -> String {
+        self.names
+            .and_then(|names| names.get(id))
+            .map(|name| tsv_field(name).into_owned())
+            .unwrap_or_default()
     }
 
     /// The TSV header line. Long: `document topic share low high`; wide:
     /// `document label` then `topic_i share_i low_i high_i` for i from 1.
+    /// With names, `name` (`name_i`) closes each topic's group of columns.
     pub fn write_tsv_header(&self, out: &mut dyn Write) -> io::Result<()> {
+        let named = self.names.is_some();
         match self.layout {
+            DocumentLayout::Long if named => writeln!(out, "document\ttopic\tshare\tlow\thigh\tname"),
             DocumentLayout::Long => writeln!(out, "document\ttopic\tshare\tlow\thigh"),
             DocumentLayout::Wide => {
                 write!(out, "document\tlabel")?;
                 for slot in 1..=self.slots {
                     write!(out, "\ttopic_{slot}\tshare_{slot}\tlow_{slot}\thigh_{slot}")?;
+                    if named {
+                        write!(out, "\tname_{slot}")?;
+                    }
                 }
                 writeln!(out)
             }
@@ -251,11 +281,12 @@ impl DocumentView {
         let text = |value: f64| self.numbers.text(value);
         match self.layout {
             DocumentLayout::Long => {
+                let name_tail = if self.names.is_some() { "\t" } else { "" };
                 if !row.placed {
-                    return writeln!(out, "{document}\t{UNPLACED}\t\t\t");
+                    return writeln!(out, "{document}\t{UNPLACED}\t\t\t{name_tail}");
                 }
                 for topic in &row.topics {
-                    writeln!(
+                    write!(
                         out,
                         "{document}\t{}\t{}\t{}\t{}",
                         topic.topic,
@@ -263,24 +294,37 @@ impl DocumentView {
                         text(topic.low),
                         text(topic.high)
                     )?;
+                    if self.names.is_some() {
+                        write!(out, "\t{}", self.name_field(topic.topic))?;
+                    }
+                    writeln!(out)?;
                 }
                 Ok(())
             }
             DocumentLayout::Wide => {
                 let label = row.label.as_deref().map(tsv_field).unwrap_or_default();
                 write!(out, "{document}\t{label}")?;
+                let named = self.names.is_some();
                 for slot in 0..self.slots {
                     match row.topics.get(slot) {
-                        Some(topic) if row.placed => write!(
-                            out,
-                            "\t{}\t{}\t{}\t{}",
-                            topic.topic,
-                            text(topic.share),
-                            text(topic.low),
-                            text(topic.high)
-                        )?,
+                        Some(topic) if row.placed => {
+                            write!(
+                                out,
+                                "\t{}\t{}\t{}\t{}",
+                                topic.topic,
+                                text(topic.share),
+                                text(topic.low),
+                                text(topic.high)
+                            )?;
+                            if named {
+                                write!(out, "\t{}", self.name_field(topic.topic))?;
+                            }
+                        }
                         _ if slot == 0 && !row.placed => write!(out, "\t{UNPLACED}\t\t\t")?,
                         _ => write!(out, "\t\t\t\t")?,
+                    }
+                    if named && !(row.placed && slot < row.topics.len()) {
+                        write!(out, "\t")?;
                     }
                 }
                 writeln!(out)
@@ -289,9 +333,24 @@ impl DocumentView {
     }
 
     /// One document as a JSON value, numbers rounded to the precision.
+    /// With names, each listed topic carries `name` (null when unnamed).
     pub fn json_value(&self, row: &DocumentRow) -> serde_json::Value {
         let mut value = serde_json::to_value(row).unwrap_or(serde_json::Value::Null);
         self.numbers.round_json(&mut value);
+        if let Some(names) = self.names
+            && let Some(topics) = value.get_mut("topics").and_then(serde_json::Value::as_array_mut)
+        {
+            for topic in topics {
+                let name = topic
+                    .get("topic")
+                    .and_then(serde_json::Value::as_u64)
+                    .and_then(|id| u32::try_from(id).ok())
+                    .and_then(|id| names.get(id));
+                if let Some(object) = topic.as_object_mut() {
+                    object.insert("name".into(), name.map_or(serde_json::Value::Null, Into::into));
+                }
+            }
+        }
         value
     }
 
@@ -340,7 +399,14 @@ pub fn write_documents(
                     row.topics
                         .iter()
                         .take(view.slots)
-                        .map(|t| format!("{}: {:.2} [{:.2}-{:.2}]", t.topic, t.share, t.low, t.high))
+                        .map(|t| {
+                            let name = view
+                                .names
+                                .and_then(|names| names.get(t.topic))
+                                .map(|name| format!(" ({})", tsv_field(name)))
+                                .unwrap_or_default();
+                            format!("{}{name}: {:.2} [{:.2}-{:.2}]", t.topic, t.share, t.low, t.high)
+                        })
                         .collect()
                 } else {
                     vec![UNPLACED.to_string()]
@@ -433,6 +499,7 @@ mod tests {
             layout: DocumentLayout::Long,
             slots: 3,
             numbers: Numbers::default(),
+            names: None,
         };
         assert_eq!(
             tsv(&view, &[row(true), row(false)]),
@@ -468,6 +535,7 @@ mod tests {
             layout: DocumentLayout::Long,
             slots: 3,
             numbers: Numbers::with_precision(3),
+            names: None,
         };
         let mut out = Vec::new();
         view.write_json_line(&mut out, &row(true)).unwrap();

@@ -21,7 +21,7 @@ pub use documents::{
     DEFAULT_MIN_SHARE, DEFAULT_WIDE_SLOTS, DocumentLayout, DocumentRow, DocumentView, ListingPlan,
     TopicSelection, TopicShare, UNPLACED, document_rows, placement_row, write_documents,
 };
-pub use topics::{TopicListing, WeightedWord, WordLimit, topic_listings, write_topics};
+pub use topics::{TopicListing, WeightedWord, WordLimit, name_topics, topic_listings, write_topics};
 
 /// How a listing is printed.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum, serde::Deserialize)]

@@ -9,6 +9,7 @@ use super::ListingFormat;
 use super::numbers::{Numbers, tsv_field};
 use crate::evaluate::uncertainty::UncertaintyError;
 use crate::model::Model;
+use crate::publish::names::TopicNames;
 
 /// One word of a topic with its weight `phi_kw` and a credible interval.
 #[derive(Clone, Debug, PartialEq, Serialize)]
@@ -22,7 +23,12 @@ pub struct WeightedWord {
 /// A topic as shown: its share of tokens and its words by weight.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct TopicListing {
-    pub topic: usize,
+    /// The topic's id (its index outside a run root).
+    pub topic: u32,
+    /// The editors' name of the topic, when the model belongs to a run root
+    /// whose names file names it (see [`name_topics`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub name: Option<String>,
     pub share: f64,
     pub words: Vec<WeightedWord>,
 }
@@ -84,7 +90,8 @@ pub fn topic_listings(
             }
             words.sort_by(by_weight);
             Ok(TopicListing {
-                topic: topic_idx,
+                topic: model.topic_ids[topic_idx],
+                name: None,
                 share: shares[topic_idx],
                 words: words
                     .into_iter()
@@ -103,11 +110,19 @@ pub fn topic_listings(
         .collect()
 }
 
+/// Gives each listed topic its editors' name, if it has one.
+pub fn name_topics(topics: &mut [TopicListing], names: &TopicNames) {
+    for topic in topics {
+        topic.name = names.get(topic.topic).map(str::to_string);
+    }
+}
+
 /// Writes topic listings in the chosen format, numbers of TSV and JSON with
 /// `numbers`' significant digits. TSV lines are
 /// `topic<TAB>rank<TAB>word<TAB>weight` (rank from 1; this layout is a
 /// contract with downstream tools, so intervals appear in the table and JSON
-/// only).
+/// only); when some topic has a name, a fifth column `name` follows (empty
+/// for a topic without one).
 pub fn write_topics(
     out: &mut dyn Write,
     topics: &[TopicListing],
@@ -116,10 +131,16 @@ pub fn write_topics(
 ) -> io::Result<()> {
     match format {
         ListingFormat::Tsv => {
-            writeln!(out, "topic\trank\tword\tweight")?;
+            let named = topics.iter().any(|topic| topic.name.is_some());
+            writeln!(
+                out,
+                "topic\trank\tword\tweight{}",
+                if named { "\tname" } else { "" }
+            )?;
             for topic in topics {
+                let name = topic.name.as_deref().map(tsv_field).unwrap_or_default();
                 for (rank, word) in topic.words.iter().enumerate() {
-                    writeln!(
+                    write!(
                         out,
                         "{}\t{}\t{}\t{}",
                         topic.topic,
@@ -127,6 +148,10 @@ pub fn write_topics(
                         tsv_field(&word.word),
                         numbers.text(word.weight)
                     )?;
+                    if named {
+                        write!(out, "\t{name}")?;
+                    }
+                    writeln!(out)?;
                 }
             }
         }
@@ -156,9 +181,14 @@ pub fn write_topics(
                         )
                     })
                     .collect();
+                let name = topic
+                    .name
+                    .as_deref()
+                    .map(|name| format!("{}: ", tsv_field(name)))
+                    .unwrap_or_default();
                 writeln!(
                     out,
-                    "{:>5}  {:>5.1}%  {}",
+                    "{:>5}  {:>5.1}%  {name}{}",
                     topic.topic,
                     100.0 * topic.share,
                     words.join(", ")

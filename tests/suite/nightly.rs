@@ -438,3 +438,124 @@ fn runs_killed_at_random_moments_never_leave_a_broken_publication() {
         .collect();
     assert!(leftovers.is_empty(), "{leftovers:?}");
 }
+
+#[test]
+fn listings_show_topic_ids_and_the_editors_names() {
+    // Source: issue contract (common practice for persistent keys): under a
+    // run root every listing names a topic by its lasting id, not by its
+    // position in this fit, and shows the editors' name beside it. The
+    // published model's ids are rewritten to 100..107 so that an id can never
+    // be mistaken for an index.
+    let scratch = Scratch::new();
+    scratch.write("docs.jsonl", json_lines(&[&generate(120, 0, 5)]));
+    config(&scratch, 40, "");
+    themata(scratch.root())
+        .args(["run", "nightly.toml", "-q"])
+        .assert()
+        .success();
+    let run = published(&scratch).expect("the run is published");
+    let mut model = themata::model::folder::load_model(&run).unwrap();
+    model.topic_ids = (100..108).collect();
+    let summary = themata::model::summary::FitSummary::new(&model, 1, 0.0, 0.0);
+    themata::model::folder::write_model_folder(&run, &model, &summary).unwrap();
+    scratch.write("root/names.toml", "103 = \"harbour works\"\n");
+    let ids: Vec<u64> = (100..108).collect();
+    let stdout = |args: &[&str]| -> String {
+        let output = themata(scratch.root()).args(args).assert().success();
+        String::from_utf8(output.get_output().stdout.clone()).unwrap()
+    };
+    let tsv_column = |text: &str, column: &str| -> Vec<String> {
+        let mut lines = text.lines();
+        let header: Vec<&str> = lines.next().unwrap().split('\t').collect();
+        let at = header.iter().position(|&name| name == column).unwrap();
+        lines
+            .map(|line| line.split('\t').nth(at).unwrap().to_string())
+            .collect()
+    };
+    let check_ids = |values: &[String], what: &str| {
+        assert!(!values.is_empty(), "{what}: no rows");
+        for value in values {
+            let id: u64 = value.parse().unwrap_or_else(|_| panic!("{what}: `{value}`"));
+            assert!(ids.contains(&id), "{what}: {id} is not an id");
+        }
+    };
+
+    // show: topics as TSV, table and JSON.
+    let topics = stdout(&["show", "root/current", "--format", "tsv"]);
+    check_ids(&tsv_column(&topics, "topic"), "show tsv");
+    let names = tsv_column(&topics, "name");
+    let topic_col = tsv_column(&topics, "topic");
+    for (topic, name) in topic_col.iter().zip(&names) {
+        assert_eq!(name == "harbour works", topic == "103", "{topic} {name}");
+    }
+    let table = stdout(&["show", "root/current"]);
+    assert!(
+        table
+            .lines()
+            .any(|line| line.trim_start().starts_with("103 ") && line.contains("harbour works:")),
+        "{table}"
+    );
+    let json: Value = serde_json::from_str(&stdout(&["show", "root/current", "--format", "json"])).unwrap();
+    for topic in json["topics"].as_array().unwrap() {
+        assert!(ids.contains(&topic["topic"].as_u64().unwrap()));
+        assert_eq!(topic["name"] == "harbour works", topic["topic"] == 103, "{topic}");
+    }
+
+    // show --documents, both layouts and JSON.
+    let long = stdout(&["show", "root/current", "--documents", "--format", "tsv"]);
+    check_ids(&tsv_column(&long, "topic"), "documents long");
+    assert!(long.lines().next().unwrap().ends_with("\tname"));
+    let wide = stdout(&[
+        "show",
+        "root/current",
+        "--documents",
+        "--format",
+        "tsv",
+        "--layout",
+        "wide",
+    ]);
+    check_ids(&tsv_column(&wide, "topic_1"), "documents wide");
+    let width = wide.lines().next().unwrap().split('\t').count();
+    assert!(
+        wide.lines().all(|line| line.split('\t').count() == width),
+        "ragged wide rows"
+    );
+    let json: Value = serde_json::from_str(&stdout(&[
+        "show",
+        "root/current",
+        "--documents",
+        "--format",
+        "json",
+    ]))
+    .unwrap();
+    for document in json["documents"].as_array().unwrap() {
+        for topic in document["topics"].as_array().unwrap() {
+            assert!(ids.contains(&topic["topic"].as_u64().unwrap()), "{topic}");
+            assert_eq!(topic["name"] == "harbour works", topic["topic"] == 103, "{topic}");
+        }
+    }
+
+    // assign: TSV and JSON Lines.
+    let placed = stdout(&["assign", "root/current", "docs.jsonl", "--all-topics"]);
+    let placed_ids = tsv_column(&placed, "topic");
+    check_ids(&placed_ids, "assign tsv");
+    assert_eq!(placed_ids.len(), 120 * 8, "every topic of every document");
+    let lines = stdout(&["assign", "root/current", "docs.jsonl", "--format", "jsonl"]);
+    for line in lines.lines() {
+        let row: Value = serde_json::from_str(line).unwrap();
+        for topic in row["topics"].as_array().unwrap() {
+            assert!(ids.contains(&topic["topic"].as_u64().unwrap()), "{topic}");
+        }
+    }
+
+    // score: the per-topic rows.
+    let json: Value = serde_json::from_str(&stdout(&["score", "root/current", "--format", "json"])).unwrap();
+    let rows = json["coherence"]["per_topic"].as_array().unwrap();
+    assert_eq!(rows.len(), 8);
+    for row in rows {
+        assert!(ids.contains(&row["topic"].as_u64().unwrap()), "{row}");
+        assert_eq!(row["name"] == "harbour works", row["topic"] == 103, "{row}");
+    }
+    let table = stdout(&["score", "root/current"]);
+    assert!(table.contains("harbour works:"), "{table}");
+}
