@@ -513,8 +513,19 @@ fn print_quality(out: &mut impl Write, run: &QualityRun) -> io::Result<()> {
         out,
         "(columns: held-out perplexity after that share of the reference's time; share = time to target / the reference's time; paired = the same against the pace of reference sweeps timed while that sampler ran)"
     )?;
+    if let Some(load) = load_average() {
+        writeln!(out, "load average at the end (1, 5, 15 minutes): {load}")?;
+    }
     writeln!(out)?;
     Ok(())
+}
+
+/// The machine's load average as `/proc/loadavg` gives it (Linux), for
+/// reading times measured on a shared machine.
+fn load_average() -> Option<String> {
+    let text = std::fs::read_to_string("/proc/loadavg").ok()?;
+    let fields: Vec<&str> = text.split_whitespace().take(3).collect();
+    (fields.len() == 3).then(|| fields.join(" "))
 }
 
 fn print_large(out: &mut impl Write, run: &LargeRun) -> io::Result<()> {
