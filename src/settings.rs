@@ -19,7 +19,7 @@ use crate::fitting::fit::{
     DEFAULT_TRACE_EVERY, FitSettings, PriorSpec,
 };
 use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
-use crate::fitting::schedule::{EXACT_UP_TO_TOPICS, SamplerChoice, SamplerKind};
+use crate::fitting::schedule::{SamplerChoice, SamplerKind};
 use crate::ingest::read::{
     DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, FieldRole, InputFormat,
     NamedField, ReadOptions,
@@ -535,7 +535,7 @@ pub struct FitOptions {
         long,
         value_enum,
         value_name = "NAME",
-        help = help(&format!("Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), `sparse` (exact draws at O(document length + log K) per token, for short documents and many topics), all three parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (exact up to {EXACT_UP_TO_TOPICS} topics, metropolis above)"), "auto")
+        help = help("Sampler: `exact` (exact draws with cached coefficients, O(K) per token), `metropolis` (Metropolis-Hastings with O(1) document and word proposals), `sparse` (exact draws at O(document length + log K) per token, for short documents and many topics), all three parallel over a fixed grid of blocks; `reference` (the plain O(K) collapsed Gibbs sweep, one thread); or `auto` (the kernel expected to reach a good model first, by mean document length L and K: exact for small K, sparse for larger K, metropolis when both L and K exceed about 330)", "auto")
     )]
     pub sampler: Option<SamplerChoice>,
     #[arg(

@@ -1,10 +1,18 @@
-//! `themata bench`: the fast samplers against the reference on synthetic
-//! corpora, printed as tables of medians and ratios with the targets they
-//! are held to.
+//! `themata bench`: the fast samplers against the reference, printed as
+//! tables of medians and ratios with the targets they are held to: token
+//! updates per second on synthetic corpora, and time to a held-out
+//! perplexity on synthetic corpora and on a corpus of real text when one is
+//! given.
 
 use std::io::{self, IsTerminal, Write};
+use std::path::PathBuf;
 
-use themata::testbed::bench::{self, Case, Convergence, LargeRun, ThroughputRow};
+use themata::fitting::schedule::SamplerKind;
+use themata::ingest::corpus::Corpus;
+use themata::model::corpus_file::load_corpus;
+use themata::testbed::bench::{
+    self, Case, LargeRun, QualityRun, QualitySettings, QualityTrace, ThroughputRow,
+};
 use themata::testbed::warm_start::{WarmStartFigure, warm_start_case};
 
 use super::Failure;
@@ -12,19 +20,34 @@ use super::Failure;
 /// Arguments of `themata bench`.
 #[derive(clap::Args, Debug)]
 #[command(
-    after_help = "Corpora are drawn from the LDA generative process (Zipf-like word frequencies, documents of about 100 tokens, alpha = 10/K, beta = 0.01) with fixed seeds. Each sampler runs on the same corpus from the same start; sweeps alternate between samplers, and every figure is a median over sweeps (ratios are medians of back-to-back pairs), because shared machines are noisy. The full run takes about 20 minutes on two cores."
+    after_help = "Synthetic corpora are drawn from the LDA generative process (Zipf-like word frequencies, documents of about 100 tokens, alpha = 10/K, beta = 0.01) with fixed seeds; every sampler samples with those priors. Each sampler runs on the same corpus from the same start; sweeps alternate between samplers, and every throughput figure is a median over sweeps (ratios are medians of back-to-back pairs), because shared machines are noisy. Time to quality holds out 10% of the documents, runs the reference for 300 sweeps on one thread and each fast sampler on --threads until it reaches the reference's final held-out perplexity (document completion). The full run takes one to two hours on two cores, more with --real-corpus."
 )]
 pub struct BenchArgs {
     /// Small corpora that finish in seconds: checks that everything runs, measures little
     #[arg(long)]
     pub quick: bool,
-    /// Threads of the parallel runs
+    /// Threads of the fast samplers
     #[arg(long, value_name = "T", default_value_t = 2)]
     pub threads: usize,
-    /// Skip the log-likelihood-against-time comparison (the longest part)
+    /// Skip the token-updates-per-second tables
     #[arg(long)]
-    pub no_convergence: bool,
-    /// Run only the fast sampler on one large corpus, on all --threads, and report time and peak memory
+    pub no_throughput: bool,
+    /// Skip the time-to-quality comparisons (the longest part)
+    #[arg(long)]
+    pub no_quality: bool,
+    /// Numbers of topics of the time-to-quality comparisons
+    #[arg(long, value_name = "K,K", value_delimiter = ',', default_values_t = [100, 1000])]
+    pub quality_topics: Vec<usize>,
+    /// Skip the synthetic corpora of the time-to-quality comparisons (with --real-corpus: real text only)
+    #[arg(long)]
+    pub no_synthetic: bool,
+    /// Tokens of the synthetic corpora of the time-to-quality comparisons, and the most the real-text corpus is cut to (every n-th document)
+    #[arg(long, value_name = "N", default_value_t = 1_000_000)]
+    pub quality_tokens: usize,
+    /// A corpus file of real text for the time-to-quality comparisons too (benches/debian-descriptions.sh prepares one)
+    #[arg(long, value_name = "FILE")]
+    pub real_corpus: Option<PathBuf>,
+    /// Run only the fast sampler `auto` picks on one large corpus, on all --threads, and report time and peak memory
     #[arg(long, conflicts_with = "quick")]
     pub large: bool,
     /// Tokens of the --large corpus
@@ -36,6 +59,9 @@ pub struct BenchArgs {
     /// Measure only the warm start of nightly retraining: tonight's corpus is last night's plus 10% new documents from the same topics; sweeps and seconds to the cold start's log-likelihood, cold against warm
     #[arg(long, conflicts_with = "large")]
     pub warm_start: bool,
+    /// Run only time to quality at K = 10,000 on 10M synthetic tokens; the reference is too slow to run there, so the sparse kernel's 300th sweep stands in for its quality and 300 timed reference sweeps' median for its time (hours)
+    #[arg(long, conflicts_with_all = ["quick", "large"])]
+    pub large_quality: bool,
 }
 
 /// Runs `themata bench`.
@@ -43,6 +69,21 @@ pub fn run(args: BenchArgs) -> Result<(), Failure> {
     if args.threads == 0 {
         return Err(Failure::bad_input(anyhow::anyhow!(
             "--threads must be at least 1"
+        )));
+    }
+    if args.quality_tokens < 10_000 {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--quality-tokens must be at least 10000"
+        )));
+    }
+    if args
+        .quality_topics
+        .iter()
+        .any(|&k| !(2..=themata::fitting::sampler::MAX_TOPICS).contains(&k))
+    {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--quality-topics must be between 2 and {}",
+            themata::fitting::sampler::MAX_TOPICS
         )));
     }
     let show_progress = std::io::stderr().is_terminal();
@@ -88,71 +129,63 @@ pub fn run(args: BenchArgs) -> Result<(), Failure> {
         clear_progress(show_progress);
         return print_large(&mut std::io::stdout().lock(), &run).or_else(super::ignore_broken_pipe);
     }
-    let (cases, convergence_case) = if args.quick {
-        (
-            vec![
-                Case {
-                    tokens: 20_000,
-                    words: 2_000,
-                    topics: 20,
-                    sweeps: 3,
-                },
-                Case {
-                    tokens: 20_000,
-                    words: 2_000,
-                    topics: 400,
-                    sweeps: 3,
-                },
-            ],
+    let real = match &args.real_corpus {
+        Some(path) if !args.no_quality => Some(bench::thin(&load_corpus(path)?, args.quality_tokens)),
+        _ => None,
+    };
+    let mut out = std::io::stdout().lock();
+    if args.large_quality {
+        return measure_large_quality(&mut out, &args, &mut progress, show_progress)
+            .or_else(super::ignore_broken_pipe);
+    }
+    let cases = if args.quick {
+        vec![
+            Case {
+                tokens: 20_000,
+                words: 2_000,
+                topics: 20,
+                sweeps: 3,
+            },
             Case {
                 tokens: 20_000,
                 words: 2_000,
                 topics: 400,
-                sweeps: 10,
+                sweeps: 3,
             },
-        )
+        ]
     } else {
-        (
-            vec![
-                Case {
-                    tokens: 1_000_000,
-                    words: 20_000,
-                    topics: 100,
-                    sweeps: 7,
-                },
-                Case {
-                    tokens: 1_000_000,
-                    words: 20_000,
-                    topics: 1000,
-                    sweeps: 5,
-                },
-                Case {
-                    tokens: 1_000_000,
-                    words: 100_000,
-                    topics: 10_000,
-                    sweeps: 5,
-                },
-                Case {
-                    tokens: 10_000_000,
-                    words: 50_000,
-                    topics: 1000,
-                    sweeps: 5,
-                },
-            ],
+        vec![
+            Case {
+                tokens: 1_000_000,
+                words: 20_000,
+                topics: 100,
+                sweeps: 7,
+            },
             Case {
                 tokens: 1_000_000,
                 words: 20_000,
                 topics: 1000,
-                sweeps: 200,
+                sweeps: 5,
             },
-        )
+            Case {
+                tokens: 1_000_000,
+                words: 100_000,
+                topics: 10_000,
+                sweeps: 5,
+            },
+            Case {
+                tokens: 10_000_000,
+                words: 50_000,
+                topics: 1000,
+                sweeps: 5,
+            },
+        ]
     };
-    let mut out = std::io::stdout().lock();
     measure_and_print(
         &mut out,
         &args,
         &cases,
-        &convergence_case,
+        real.as_ref(),
         &mut progress,
         show_progress,
     )
@@ -165,43 +198,122 @@ fn measure_and_print(
     out: &mut impl Write,
     args: &BenchArgs,
     cases: &[Case],
-    convergence_case: &Case,
+    real: Option<&Corpus>,
     progress: &mut dyn FnMut(&str),
     show_progress: bool,
 ) -> io::Result<()> {
     writeln!(
         out,
-        "themata bench: fast samplers against the reference O(K) sweep, medians over sweeps"
+        "themata bench: fast samplers against the reference O(K) sweep (one thread); * marks the sampler `auto` picks"
     )?;
     writeln!(out)?;
     let mut rows = Vec::new();
-    for case in cases {
-        let row = bench::throughput(case, args.threads, progress);
-        clear_progress(show_progress);
-        print_row_header_once(out, rows.is_empty(), args.threads)?;
-        print_row(out, &row)?;
-        out.flush()?;
-        rows.push(row);
+    if !args.no_throughput {
+        for case in cases {
+            let measured = bench::throughput(case, args.threads, progress);
+            clear_progress(show_progress);
+            print_row_header_once(out, rows.is_empty(), args.threads)?;
+            for row in &measured {
+                print_row(out, row)?;
+            }
+            out.flush()?;
+            rows.extend(measured);
+        }
+        writeln!(out)?;
+        print_memory(out, &rows)?;
     }
-    writeln!(out)?;
-    print_memory(out, &rows)?;
-    let convergence = if args.no_convergence {
-        None
-    } else {
-        let every = if args.quick { 2 } else { 10 };
-        let result = bench::convergence(convergence_case, every, progress);
-        clear_progress(show_progress);
-        print_convergence(out, &result)?;
-        Some(result)
-    };
+    let mut quality = Vec::new();
+    if !args.no_quality {
+        let mut corpora: Vec<(String, Corpus, Vec<usize>)> = Vec::new();
+        if args.quick {
+            let case = Case {
+                tokens: 20_000,
+                words: 2_000,
+                topics: 20,
+                sweeps: 0,
+            };
+            corpora.push(("synthetic".into(), bench::corpus_of(&case), vec![20]));
+        } else if !args.no_synthetic {
+            for &topics in &args.quality_topics {
+                let case = Case {
+                    tokens: args.quality_tokens,
+                    words: 20_000,
+                    topics,
+                    sweeps: 0,
+                };
+                progress(&format!("generating the synthetic corpus for K = {topics}"));
+                corpora.push(("synthetic".into(), bench::corpus_of(&case), vec![topics]));
+            }
+        }
+        for (label, corpus, topics) in &corpora {
+            for &k in topics {
+                let mut settings = QualitySettings::standard(k, args.threads);
+                if args.quick {
+                    settings.reference_sweeps = 20;
+                    settings.reference_every = 5;
+                    settings.heldout_tokens = 2_000;
+                }
+                let run = bench::time_to_quality(label, corpus, &settings, progress);
+                clear_progress(show_progress);
+                print_quality(out, &run)?;
+                out.flush()?;
+                quality.push(run);
+            }
+        }
+        match real {
+            Some(corpus) if !args.quick => {
+                for &k in &args.quality_topics {
+                    let settings = QualitySettings::standard(k, args.threads);
+                    let run = bench::time_to_quality("real text", corpus, &settings, progress);
+                    clear_progress(show_progress);
+                    print_quality(out, &run)?;
+                    out.flush()?;
+                    quality.push(run);
+                }
+            }
+            Some(_) => writeln!(out, "(--quick: the real-text corpus is not measured)")?,
+            None => writeln!(
+                out,
+                "real text: skipped, no --real-corpus given (benches/debian-descriptions.sh prepares one: Debian package descriptions)"
+            )?,
+        }
+        writeln!(out)?;
+    }
     if args.quick {
         writeln!(
             out,
             "(--quick: corpora too small for the targets; run without --quick to check them)"
         )?;
     } else {
-        print_targets(out, &rows, convergence.as_ref(), args.threads)?;
+        print_targets(out, &rows, &quality, args.threads)?;
     }
+    out.flush()
+}
+
+/// Time to quality at K = 10,000 on 10M tokens, with the sparse kernel
+/// standing in for the reference's quality.
+fn measure_large_quality(
+    out: &mut impl Write,
+    args: &BenchArgs,
+    progress: &mut dyn FnMut(&str),
+    show_progress: bool,
+) -> io::Result<()> {
+    let case = Case {
+        tokens: 10_000_000,
+        words: 100_000,
+        topics: 10_000,
+        sweeps: 0,
+    };
+    progress("generating 10M tokens, V = 100,000, K = 10,000");
+    let corpus = bench::corpus_of(&case);
+    let mut settings = QualitySettings::standard(case.topics, args.threads);
+    settings.reference_every = 25;
+    settings.heldout_tokens = 5_000;
+    settings.samplers = vec![SamplerKind::Metropolis];
+    settings.stand_in = Some((SamplerKind::Sparse, 2));
+    let run = bench::time_to_quality("synthetic", &corpus, &settings, progress);
+    clear_progress(show_progress);
+    print_quality(out, &run)?;
     out.flush()
 }
 
@@ -215,7 +327,7 @@ fn print_row_header_once(out: &mut impl Write, first: bool, threads: usize) -> i
     if first {
         writeln!(
             out,
-            "{:>10} {:>7} {:>6}  {:<10} {:>6}  {:>10} {:>10} {:>8}  {:>10} {:>7}  {:>5}  {:>9} {:>10}",
+            "{:>10} {:>7} {:>6}  {:<11} {:>6}  {:>10} {:>10} {:>8}  {:>10} {:>7}  {:>5}  {:>9} {:>10}",
             "tokens",
             "words",
             "K",
@@ -234,14 +346,19 @@ fn print_row_header_once(out: &mut impl Write, first: bool, threads: usize) -> i
     Ok(())
 }
 
+/// A sampler's name, with `*` when `auto` picks it.
+fn sampler_label(kind: SamplerKind, auto: bool) -> String {
+    format!("{}{}", kind.name(), if auto { "*" } else { "" })
+}
+
 fn print_row(out: &mut impl Write, row: &ThroughputRow) -> io::Result<()> {
     writeln!(
         out,
-        "{:>10} {:>7} {:>6}  {:<10} {:>6}  {:>10} {:>10} {:>7.1}x  {:>10} {:>6.3}x  {:>5}  {:>9.1} {:>10.1}",
+        "{:>10} {:>7} {:>6}  {:<11} {:>6}  {:>10} {:>10} {:>7.1}x  {:>10} {:>6.3}x  {:>5}  {:>9.1} {:>10.1}",
         row.case.tokens,
         row.case.words,
         row.case.topics,
-        row.fast_sampler.name(),
+        sampler_label(row.fast_sampler, row.auto),
         row.shards,
         rate(row.reference_per_second),
         rate(row.fast_per_second),
@@ -275,10 +392,11 @@ fn print_memory(out: &mut impl Write, rows: &[ThroughputRow]) -> io::Result<()> 
     for row in rows {
         writeln!(
             out,
-            "  {} tokens, V = {}, K = {}: {}",
+            "  {} tokens, V = {}, K = {}, {}: {}",
             row.case.tokens,
             row.case.words,
             row.case.topics,
+            row.fast_sampler.name(),
             megabytes(row.fast_peak_rss)
         )?;
     }
@@ -286,54 +404,128 @@ fn print_memory(out: &mut impl Write, rows: &[ThroughputRow]) -> io::Result<()> 
     Ok(())
 }
 
-fn print_convergence(out: &mut impl Write, result: &Convergence) -> io::Result<()> {
-    writeln!(
-        out,
-        "log-likelihood against sweep time, {} tokens, V = {}, K = {} (one thread each; fast = {}):",
-        result.case.tokens,
-        result.case.words,
-        result.case.topics,
-        result.fast_sampler.name()
-    )?;
-    writeln!(
-        out,
-        "{:>8} {:>10} {:>14}    {:>8} {:>10} {:>14}",
-        "ref swp", "ref s", "ref loglik", "fast swp", "fast s", "fast loglik"
-    )?;
-    let rows = result.reference.len().max(result.fast.len());
-    for idx in 0..rows {
-        let cell = |point: Option<&bench::TracePoint>| match point {
-            Some(p) => format!("{:>8} {:>10.2} {:>14.6e}", p.sweep, p.seconds, p.log_likelihood),
-            None => format!("{:>8} {:>10} {:>14}", "", "", ""),
-        };
-        writeln!(
-            out,
-            "{}    {}",
-            cell(result.reference.get(idx)),
-            cell(result.fast.get(idx))
-        )?;
+/// The shares of the reference's time at which perplexities are shown.
+const TIME_SHARES: [(f64, &str); 7] = [
+    (0.01, "1/100"),
+    (0.02, "1/50"),
+    (0.05, "1/20"),
+    (0.1, "1/10"),
+    (0.2, "1/5"),
+    (0.5, "1/2"),
+    (1.0, "1"),
+];
+
+/// A trace's perplexity at `seconds`: its last measurement by then; blank
+/// before the first and once the trace has ended (a little after its last
+/// measurement, which may fall just past a column's time).
+fn perplexity_at(trace: &QualityTrace, seconds: f64) -> String {
+    let end = trace.points.last().map_or(0.0, |point| point.seconds);
+    match trace.points.iter().rev().find(|point| point.seconds <= seconds) {
+        Some(point) if seconds <= end * 1.001 => format!("{:.1}", point.perplexity),
+        _ => String::new(),
     }
-    let reference_end = result.reference.last().copied();
-    match (result.reached, reference_end) {
-        (Some(point), Some(end)) => writeln!(
+}
+
+fn print_quality(out: &mut impl Write, run: &QualityRun) -> io::Result<()> {
+    let settings = &run.settings;
+    writeln!(
+        out,
+        "time to quality, {}: {} training tokens in {} documents (mean {:.1} tokens), V = {}, K = {}; {} held-out documents ({} tokens), document completion",
+        run.label,
+        run.shape.tokens,
+        run.shape.documents,
+        run.shape.mean_document_length(),
+        run.shape.words,
+        run.shape.topics,
+        run.heldout_documents,
+        run.heldout_tokens
+    )?;
+    match settings.stand_in {
+        Some((kind, timed_sweeps)) => writeln!(
             out,
-            "fast reached the reference's final log-likelihood ({:.6e} after {} sweeps, {:.1} s) after {} sweeps, {:.1} s: {:.3} of the reference's time",
-            end.log_likelihood,
-            end.sweep,
-            end.seconds,
-            point.sweep,
-            point.seconds,
-            point.seconds / end.seconds
+            "target: held-out perplexity {:.2}, that of {} (exact draws, the reference's conditional) after {} sweeps on {} threads; the reference's time for {} sweeps is estimated as {:.0} s from the median of {} timed sweeps",
+            run.target,
+            kind.name(),
+            settings.reference_sweeps,
+            run.reference.threads,
+            settings.reference_sweeps,
+            run.reference_seconds,
+            timed_sweeps
         )?,
-        (None, Some(end)) => writeln!(
+        None => writeln!(
             out,
-            "fast did not reach the reference's final log-likelihood ({:.6e}) within the reference's {:.1} s",
-            end.log_likelihood, end.seconds
+            "target: the reference's held-out perplexity after {} sweeps, {:.2}, reached in {:.1} s on one thread",
+            settings.reference_sweeps, run.target, run.reference_seconds
         )?,
-        _ => {}
+    }
+    write!(out, "{:<12} {:>3} {:>6} ", "sampler", "thr", "shards")?;
+    for (_, label) in TIME_SHARES {
+        write!(out, " {label:>8}")?;
+    }
+    writeln!(
+        out,
+        "   {:>24}  {:>6}  {:>6}",
+        "time to target", "share", "paired"
+    )?;
+    let traces = std::iter::once(&run.reference).chain(&run.fast);
+    for trace in traces {
+        let is_reference = std::ptr::eq(trace, &run.reference);
+        write!(
+            out,
+            "{:<12} {:>3} {:>6} ",
+            if is_reference && settings.stand_in.is_none() {
+                "reference".to_string()
+            } else {
+                sampler_label(trace.sampler, trace.sampler == run.auto)
+            },
+            trace.threads,
+            trace.shards
+        )?;
+        for (share, _) in TIME_SHARES {
+            write!(out, " {:>8}", perplexity_at(trace, share * run.reference_seconds))?;
+        }
+        if is_reference && settings.stand_in.is_none() {
+            writeln!(out)?;
+            continue;
+        }
+        match trace.reached {
+            Some(point) => writeln!(
+                out,
+                "   {:>24}  {:>6.3}  {:>6}",
+                format!("{:.1} s ({} sweeps)", point.seconds, point.sweep),
+                point.seconds / run.reference_seconds,
+                run.paired_time_ratio(trace)
+                    .map_or_else(String::new, |ratio| format!("{ratio:.3}"))
+            )?,
+            None => writeln!(
+                out,
+                "   {:>24}  {:>6}",
+                format!(
+                    "not in {:.0} s ({} sweeps)",
+                    trace.points.last().map_or(0.0, |p| p.seconds),
+                    trace.points.last().map_or(0, |p| p.sweep)
+                ),
+                ""
+            )?,
+        }
+    }
+    writeln!(
+        out,
+        "(columns: held-out perplexity after that share of the reference's time; share = time to target / the reference's time; paired = the same against the pace of reference sweeps timed while that sampler ran)"
+    )?;
+    if let Some(load) = load_average() {
+        writeln!(out, "load average at the end (1, 5, 15 minutes): {load}")?;
     }
     writeln!(out)?;
     Ok(())
+}
+
+/// The machine's load average as `/proc/loadavg` gives it (Linux), for
+/// reading times measured on a shared machine.
+fn load_average() -> Option<String> {
+    let text = std::fs::read_to_string("/proc/loadavg").ok()?;
+    let fields: Vec<&str> = text.split_whitespace().take(3).collect();
+    (fields.len() == 3).then(|| fields.join(" "))
 }
 
 fn print_large(out: &mut impl Write, run: &LargeRun) -> io::Result<()> {
@@ -360,7 +552,23 @@ fn print_large(out: &mut impl Write, run: &LargeRun) -> io::Result<()> {
         "  log-likelihood {:.6e} at the start, {:.6e} at the end",
         run.log_likelihood_first, run.log_likelihood_last
     )?;
-    writeln!(out, "  peak resident memory: {}", megabytes(run.peak_rss))?;
+    let per_token = |bytes: Option<u64>| {
+        bytes.map_or_else(String::new, |b| {
+            format!(" ({:.1} bytes per token)", b as f64 / run.case.tokens as f64)
+        })
+    };
+    writeln!(
+        out,
+        "  peak resident memory: {}{} (whole process, corpus generation included)",
+        megabytes(run.peak_rss),
+        per_token(run.peak_rss)
+    )?;
+    writeln!(
+        out,
+        "  peak resident memory from the end of generation: {}{} (corpus, state, sampler)",
+        megabytes(run.fit_peak_rss),
+        per_token(run.fit_peak_rss)
+    )?;
     Ok(())
 }
 
@@ -368,20 +576,20 @@ fn print_large(out: &mut impl Write, run: &LargeRun) -> io::Result<()> {
 fn print_targets(
     out: &mut impl Write,
     rows: &[ThroughputRow],
-    convergence: Option<&Convergence>,
+    quality: &[QualityRun],
     threads: usize,
 ) -> io::Result<()> {
     writeln!(out, "targets:")?;
     let mut line = |what: String, value: String, met: bool| {
         writeln!(
             out,
-            "  {:<66} {:>8}  {}",
+            "  {:<78} {:>8}  {}",
             what,
             value,
             if met { "met" } else { "NOT met" }
         )
     };
-    for row in rows {
+    for row in rows.iter().filter(|row| row.auto) {
         let target = match row.case.topics {
             k if k >= 10_000 => 50.0,
             k if k >= 1000 => 8.0,
@@ -389,18 +597,22 @@ fn print_targets(
         };
         line(
             format!(
-                "fast/ref at K = {}, {} tokens (at least {target}x)",
-                row.case.topics, row.case.tokens
+                "fast/ref at K = {}, {} tokens, {} (at least {target}x)",
+                row.case.topics,
+                row.case.tokens,
+                row.fast_sampler.name()
             ),
             format!("{:.2}x", row.speedup),
             row.speedup >= target,
         )?;
     }
-    for row in rows {
+    for row in rows.iter().filter(|row| row.auto) {
         line(
             format!(
-                "{threads} threads / 1 thread, K = {}, {} tokens (at least 1.7x)",
-                row.case.topics, row.case.tokens
+                "{threads} threads / 1 thread, K = {}, {} tokens, {} (at least 1.7x)",
+                row.case.topics,
+                row.case.tokens,
+                row.fast_sampler.name()
             ),
             // Three decimals, so that a ratio just under the target never
             // prints as the target.
@@ -408,24 +620,30 @@ fn print_targets(
             row.thread_speedup >= 1.7,
         )?;
     }
-    if let Some(result) = convergence {
-        match result.time_ratio() {
-            Some(ratio) => line(
-                format!(
-                    "time to the reference's log-likelihood at K = {} (at most 1/5)",
-                    result.case.topics
-                ),
-                format!("{ratio:.3}"),
-                ratio <= 0.2,
-            )?,
-            None => line(
-                "time to the reference's log-likelihood (at most 1/5)".to_string(),
-                "not reached".to_string(),
-                false,
-            )?,
+    for run in quality {
+        let target = match run.shape.topics {
+            k if k >= 1000 => 1.0 / 20.0,
+            k if k >= 100 => 1.0 / 8.0,
+            _ => continue,
+        };
+        let auto = run.fast.iter().find(|trace| trace.sampler == run.auto);
+        let what = format!(
+            "time to the reference's {}-sweep perplexity, {}, K = {}, {} (at most 1/{:.0})",
+            run.settings.reference_sweeps,
+            run.label,
+            run.shape.topics,
+            run.auto.name(),
+            1.0 / target
+        );
+        match auto.and_then(|trace| run.time_ratio(trace)) {
+            Some(ratio) => line(what, format!("{ratio:.3}"), ratio <= target)?,
+            None => line(what, "not reached".to_string(), false)?,
         }
     }
-    for row in rows.iter().filter(|row| row.case.tokens >= 10_000_000) {
+    for row in rows
+        .iter()
+        .filter(|row| row.auto && row.case.tokens >= 10_000_000)
+    {
         if let Some(peak) = row.fast_peak_rss {
             line(
                 format!(
@@ -436,16 +654,6 @@ fn print_targets(
                 peak <= 1_000_000_000,
             )?;
         }
-    }
-    for row in rows.iter().filter(|row| row.case.topics == 1000) {
-        line(
-            format!(
-                "stretch: token updates/s per core, K = 1000, {} tokens (5M)",
-                row.case.tokens
-            ),
-            rate(row.fast_per_second),
-            row.fast_per_second >= 5e6,
-        )?;
     }
     Ok(())
 }

@@ -14,7 +14,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::fitting::priors::{self, CountHistogram, HistogramBuilder, LearnSettings};
 use crate::fitting::sampler::{self, BetaPrior, CountState, MAX_TOKENS, Priors, ShardedSampler};
-use crate::fitting::schedule::{SamplerChoice, Schedule};
+use crate::fitting::schedule::{CorpusShape, SamplerChoice, Schedule};
 use crate::ingest::corpus::Corpus;
 use crate::model::{Model, Sample};
 
@@ -270,7 +270,9 @@ pub fn resolve(corpus: &Corpus, settings: &FitSettings) -> Result<(Priors, Sched
         PriorSpec::Symmetric(value) => BetaPrior::Symmetric(*value),
         PriorSpec::Learn => BetaPrior::Symmetric(LEARN_START_BETA),
     };
-    let sampler = settings.sampler.resolve(settings.n_topics);
+    let sampler = settings
+        .sampler
+        .resolve(&CorpusShape::of(corpus, settings.n_topics));
     let shards = if sampler.is_block_parallel() {
         settings
             .shards

@@ -5,6 +5,8 @@
 
 use serde::Deserialize;
 
+use crate::ingest::corpus::Corpus;
+
 /// The sampler a model sweeps with: resolved from the user's
 /// [`SamplerChoice`] when a fit starts, kept for the model's life.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -51,21 +53,35 @@ impl SamplerKind {
     }
 }
 
-/// Up to this many topics `auto` picks the exact sampler, above it the
-/// Metropolis-Hastings one. The exact kernel's cost per token grows with K,
-/// the MH kernel's does not, but MH needs two to three times the sweeps to
-/// reach the same log-likelihood. On the bench corpora exact draws win at
-/// K = 100 (MH is no faster than the reference there in time to a given
-/// log-likelihood) and MH wins at K = 1000; 300 lies between the two and
-/// was not measured more finely.
-pub const EXACT_UP_TO_TOPICS: usize = 300;
+/// What `auto` expects a kernel to cost, in nanoseconds of one thread per
+/// token and per sweep of the reference's progress, for a corpus of this
+/// shape: a cost model fitted to measured CPU time per token (see
+/// ARCHITECTURE.md, "How `auto` picks"). The exact kernel is O(K); the
+/// sparse one follows the topics a document can hold, at most min(L, K)
+/// for mean document length L; the Metropolis-Hastings one is flat per
+/// token but needs more sweeps than exact draws to reach the same held-out
+/// perplexity, counted by `METROPOLIS_SWEEP_FACTOR`.
+pub fn expected_cost(kind: SamplerKind, shape: &CorpusShape) -> f64 {
+    let topics = shape.topics as f64;
+    let length = shape.mean_document_length();
+    match kind {
+        SamplerKind::Reference | SamplerKind::Exact => 50.0 + 0.7 * topics,
+        SamplerKind::Sparse => 140.0 + 0.35 * length.min(topics),
+        SamplerKind::Metropolis => 170.0 * METROPOLIS_SWEEP_FACTOR,
+    }
+}
+
+/// How many more sweeps than exact draws the Metropolis-Hastings kernel
+/// needs to reach a held-out perplexity: measured 1.1 to 2 (more at small
+/// K), taken as 1.5.
+pub const METROPOLIS_SWEEP_FACTOR: f64 = 1.5;
 
 /// The sampler a user asks for (`--sampler`): a kind, or `auto`, which
-/// picks one by the number of topics.
+/// picks one by the corpus's shape ([`expected_cost`]).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Deserialize, clap::ValueEnum)]
 #[serde(rename_all = "kebab-case")]
 pub enum SamplerChoice {
-    /// `exact` up to 300 topics, `metropolis` above.
+    /// The kernel expected to reach a good model first, by mean document length and K.
     #[default]
     Auto,
     /// Exact draws with cached coefficients, parallel over blocks.
@@ -78,16 +94,47 @@ pub enum SamplerChoice {
     Reference,
 }
 
+/// What `auto` looks at: the size of the corpus and of the model.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CorpusShape {
+    pub tokens: usize,
+    pub documents: usize,
+    /// Vocabulary size V.
+    pub words: usize,
+    /// Topics K.
+    pub topics: usize,
+}
+
+impl CorpusShape {
+    /// The shape of fitting `corpus` with `topics` topics.
+    pub fn of(corpus: &Corpus, topics: usize) -> CorpusShape {
+        CorpusShape {
+            tokens: corpus.n_tokens(),
+            documents: corpus.n_docs(),
+            words: corpus.vocabulary.len(),
+            topics,
+        }
+    }
+
+    /// Tokens per document.
+    pub fn mean_document_length(&self) -> f64 {
+        self.tokens as f64 / self.documents.max(1) as f64
+    }
+}
+
 impl SamplerChoice {
-    /// The sampler used for `n_topics` topics.
-    pub fn resolve(self, n_topics: usize) -> SamplerKind {
+    /// The sampler used for a corpus of this shape.
+    pub fn resolve(self, shape: &CorpusShape) -> SamplerKind {
         match self {
             SamplerChoice::Reference => SamplerKind::Reference,
             SamplerChoice::Exact => SamplerKind::Exact,
             SamplerChoice::Metropolis => SamplerKind::Metropolis,
             SamplerChoice::Sparse => SamplerKind::Sparse,
-            SamplerChoice::Auto if n_topics <= EXACT_UP_TO_TOPICS => SamplerKind::Exact,
-            SamplerChoice::Auto => SamplerKind::Metropolis,
+            // Ties go to the earlier kind: exact draws before MH.
+            SamplerChoice::Auto => [SamplerKind::Exact, SamplerKind::Sparse, SamplerKind::Metropolis]
+                .into_iter()
+                .min_by(|a, b| expected_cost(*a, shape).total_cmp(&expected_cost(*b, shape)))
+                .unwrap_or(SamplerKind::Exact),
         }
     }
 }
@@ -116,4 +163,39 @@ pub struct Schedule {
     pub lag: u64,
     /// Record the log-likelihood every this many sweeps.
     pub trace_every: u64,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn shape(mean_length: usize, topics: usize) -> CorpusShape {
+        CorpusShape {
+            tokens: mean_length * 1000,
+            documents: 1000,
+            words: 20_000,
+            topics,
+        }
+    }
+
+    #[test]
+    fn auto_follows_the_measured_crossovers() {
+        // Source: this project's measurements of CPU time per token and of
+        // time to quality (ARCHITECTURE.md, "How `auto` picks"); the cases
+        // sit well inside each region, not on a boundary.
+        let auto = |length, topics| SamplerChoice::Auto.resolve(&shape(length, topics));
+        assert_eq!(auto(100, 10), SamplerKind::Exact);
+        assert_eq!(auto(38, 100), SamplerKind::Exact);
+        assert_eq!(auto(100, 100), SamplerKind::Exact);
+        assert_eq!(auto(38, 1000), SamplerKind::Sparse);
+        assert_eq!(auto(100, 1000), SamplerKind::Sparse);
+        assert_eq!(auto(20, 300), SamplerKind::Sparse);
+        assert_eq!(auto(2000, 1000), SamplerKind::Metropolis);
+        assert_eq!(auto(2000, 10_000), SamplerKind::Metropolis);
+        // A choice other than auto is kept whatever the shape.
+        assert_eq!(
+            SamplerChoice::Sparse.resolve(&shape(2000, 10)),
+            SamplerKind::Sparse
+        );
+    }
 }

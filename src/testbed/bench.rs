@@ -1,6 +1,7 @@
-//! Benchmarks of the samplers against the reference on synthetic corpora
-//! drawn from the LDA generative process (`synthetic::urn_corpus`), for
-//! `themata bench`.
+//! Benchmarks of the samplers against the reference, for `themata bench`:
+//! token updates per second on synthetic corpora drawn from the LDA
+//! generative process (`synthetic::urn_corpus`), and time to quality
+//! (held-out perplexity against wall time) on those and on any corpus given.
 //!
 //! The machines this runs on are shared and noisy, so nothing here trusts a
 //! single time. The samplers being compared run in the same process on the
@@ -8,19 +9,26 @@
 //! each figure is the median over sweeps of a per-sweep rate or of a ratio
 //! of two sweeps taken back to back.
 //!
-//! Times cover sweeps only; log-likelihoods are computed between sweeps and
-//! not timed.
+//! Times cover sweeps only; log-likelihoods and perplexities are computed
+//! between sweeps and not timed.
 
 use std::time::Instant;
 
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
+use crate::evaluate::heldout::FoldInSettings;
+use crate::evaluate::score::{self, EncodedDocument, Method, ScoreSettings};
 use crate::fitting::sampler::{self, BetaPrior, CountState, Priors, ShardedSampler};
-use crate::fitting::schedule::{SamplerChoice, SamplerKind};
+use crate::fitting::schedule::{CorpusShape, SamplerChoice, SamplerKind, Schedule};
 use crate::ingest::corpus::Corpus;
+use crate::model::{Model, Sample};
 use crate::testbed::memory;
 use crate::testbed::synthetic::{self, UrnCorpusSettings};
+
+/// The samplers measured against the reference.
+pub const FAST_SAMPLERS: [SamplerKind; 3] =
+    [SamplerKind::Exact, SamplerKind::Metropolis, SamplerKind::Sparse];
 
 /// One corpus shape to measure.
 #[derive(Clone, Debug, PartialEq)]
@@ -32,12 +40,14 @@ pub struct Case {
     pub sweeps: usize,
 }
 
-/// What was measured on one case.
+/// What was measured of one fast sampler on one case.
 #[derive(Clone, Debug)]
 pub struct ThroughputRow {
     pub case: Case,
-    /// The fast sampler `auto` picks for this K.
+    /// The fast sampler measured.
     pub fast_sampler: SamplerKind,
+    /// Whether `auto` picks it for this corpus.
+    pub auto: bool,
     /// Shards of the fast sampler.
     pub shards: usize,
     /// Median token updates per second of the reference (one thread).
@@ -58,40 +68,11 @@ pub struct ThroughputRow {
     pub reference_bytes_per_token: f64,
     /// Bytes per token held by the fast sampler's state and working memory.
     pub fast_bytes_per_token: f64,
-    /// Peak resident set of the process while only the corpus and one fast
-    /// chain existed (Linux; `None` elsewhere or when the reset failed).
+    /// Peak resident set of the process while only the corpus and this
+    /// sampler's chain existed (Linux; `None` elsewhere or when the reset failed).
     pub fast_peak_rss: Option<u64>,
     /// Log-likelihood after the sweeps: reference, fast.
     pub log_likelihood: (f64, f64),
-}
-
-/// One point of a log-likelihood trace.
-#[derive(Clone, Copy, Debug)]
-pub struct TracePoint {
-    pub sweep: usize,
-    /// Seconds of sweeping so far.
-    pub seconds: f64,
-    pub log_likelihood: f64,
-}
-
-/// Log-likelihood against time for the reference and the fast sampler.
-#[derive(Clone, Debug)]
-pub struct Convergence {
-    pub case: Case,
-    pub fast_sampler: SamplerKind,
-    pub reference: Vec<TracePoint>,
-    pub fast: Vec<TracePoint>,
-    /// The first fast point at or above the reference's final log-likelihood.
-    pub reached: Option<TracePoint>,
-}
-
-impl Convergence {
-    /// Fast time to the reference's final log-likelihood over the
-    /// reference's time to get there.
-    pub fn time_ratio(&self) -> Option<f64> {
-        let total = self.reference.last()?.seconds;
-        Some(self.reached?.seconds / total)
-    }
 }
 
 /// The outcome of one long fast-only run.
@@ -107,11 +88,11 @@ pub struct LargeRun {
     pub sweep_seconds: f64,
     pub log_likelihood_first: f64,
     pub log_likelihood_last: f64,
+    /// Peak resident set of the whole process, corpus generation included.
     pub peak_rss: Option<u64>,
+    /// Peak resident set from the end of corpus generation on: the fit alone.
+    pub fit_peak_rss: Option<u64>,
 }
-
-/// Fast sweeps run after each reference sweep in the convergence comparison.
-const FAST_PER_REFERENCE: usize = 2;
 
 /// Document length of the generated corpora.
 pub const MEAN_DOC_LEN: usize = 100;
@@ -136,9 +117,10 @@ pub fn corpus_of(case: &Case) -> Corpus {
     corpus
 }
 
-fn priors_of(case: &Case) -> Priors {
+/// The priors every measurement samples with: alpha = a0 / K, beta fixed.
+pub fn priors_for(topics: usize) -> Priors {
     Priors {
-        alpha: vec![ALPHA_SUM / case.topics as f64; case.topics],
+        alpha: vec![ALPHA_SUM / topics as f64; topics],
         beta: BetaPrior::Symmetric(BETA),
     }
 }
@@ -158,39 +140,22 @@ pub fn median(values: &[f64]) -> f64 {
     }
 }
 
-/// What every measurement starts from: the case's corpus and priors, the
-/// fast sampler `auto` picks for its K, and one random starting state.
-struct Setup {
-    corpus: Corpus,
-    priors: Priors,
-    fast_sampler: SamplerKind,
-    start: CountState,
+/// `corpus` cut to at most about `max_tokens` tokens by keeping every n-th
+/// document (n the smallest that fits), so that the cut keeps the mix of
+/// the whole; the vocabulary is kept whole. The corpus itself when it fits.
+pub fn thin(corpus: &Corpus, max_tokens: usize) -> Corpus {
+    let every = corpus.n_tokens().div_ceil(max_tokens.max(1)).max(1);
+    if every == 1 {
+        return corpus.clone();
+    }
+    let keep: Vec<bool> = (0..corpus.n_docs()).map(|idx| idx % every == 0).collect();
+    score::split_corpus(corpus, &keep).1
 }
 
-impl Setup {
-    fn new(case: &Case, progress: &mut dyn FnMut(&str)) -> Setup {
-        progress(&format!(
-            "generating {} tokens, V = {}, K = {}",
-            case.tokens, case.words, case.topics
-        ));
-        let corpus = corpus_of(case);
-        let fast_sampler = SamplerChoice::Auto.resolve(case.topics);
-        let mut init_rng = Xoshiro256PlusPlus::seed_from_u64(1);
-        let start = CountState::random(&corpus, case.topics, &mut init_rng);
-        Setup {
-            priors: priors_of(case),
-            corpus,
-            fast_sampler,
-            start,
-        }
-    }
-
-    /// A driver with the default shard count for this corpus and kernel.
-    fn engine(&self) -> ShardedSampler {
-        let shards = sampler::default_shards(self.corpus.n_tokens(), self.fast_sampler);
-        ShardedSampler::new(&self.corpus, shards, self.fast_sampler)
-            .expect("auto picks a block-parallel sampler")
-    }
+/// A driver for `kind` with the default shard count for `corpus`.
+fn engine(corpus: &Corpus, kind: SamplerKind) -> ShardedSampler {
+    let shards = sampler::default_shards(corpus.n_tokens(), kind);
+    ShardedSampler::new(corpus, shards, kind).expect("a block-parallel sampler")
 }
 
 fn pool(threads: usize) -> rayon::ThreadPool {
@@ -204,191 +169,488 @@ fn timed(work: impl FnOnce()) -> f64 {
     started.elapsed().as_secs_f64()
 }
 
-/// Measures one case: reference, fast on one thread and fast on `threads`
-/// threads, one sweep each in turn.
-pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -> ThroughputRow {
-    let setup = Setup::new(case, progress);
+/// Measures one case: the reference, then each fast sampler on one thread
+/// and on `threads` threads, one sweep each in turn; one row per fast sampler.
+pub fn throughput(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -> Vec<ThroughputRow> {
+    progress(&format!(
+        "generating {} tokens, V = {}, K = {}",
+        case.tokens, case.words, case.topics
+    ));
+    let corpus = corpus_of(case);
+    let priors = priors_for(case.topics);
+    let auto = SamplerChoice::Auto.resolve(&CorpusShape::of(&corpus, case.topics));
+    let start = CountState::random(&corpus, case.topics, &mut Xoshiro256PlusPlus::seed_from_u64(1));
     let one = pool(1);
     let many = pool(threads);
+    let tokens = corpus.n_tokens() as f64;
 
-    // Memory first, while only the corpus and one fast chain exist.
-    let peak_reset = memory::reset_peak();
-    let mut engine = setup.engine();
-    let Setup {
-        corpus,
-        priors,
-        fast_sampler,
-        start,
-        ..
-    } = setup;
-    let mut fast = start.clone();
-    one.install(|| engine.sweep(&mut fast, &corpus, &priors, 7, 1));
-    let fast_peak_rss = if peak_reset {
-        memory::peak_rss_bytes()
-    } else {
-        None
-    };
-    let fast_bytes = fast.heap_bytes() + engine.heap_bytes();
+    // Memory first, one sampler at a time, while only the corpus and that
+    // sampler's chain exist.
+    let mut memory_of = Vec::new();
+    for kind in FAST_SAMPLERS {
+        progress(&format!("{}: memory", kind.name()));
+        let peak_reset = memory::reset_peak();
+        let mut engine = engine(&corpus, kind);
+        let mut state = start.clone();
+        one.install(|| engine.sweep(&mut state, &corpus, &priors, 7, 1));
+        let peak = if peak_reset {
+            memory::peak_rss_bytes()
+        } else {
+            None
+        };
+        memory_of.push((peak, (state.heap_bytes() + engine.heap_bytes()) as f64 / tokens));
+    }
 
-    let mut parallel = start.clone();
-    many.install(|| engine.sweep(&mut parallel, &corpus, &priors, 7, 1));
+    struct Chain {
+        kind: SamplerKind,
+        engine: ShardedSampler,
+        one: CountState,
+        many: CountState,
+        rates: Vec<f64>,
+        parallel_rates: Vec<f64>,
+        speedups: Vec<f64>,
+        thread_speedups: Vec<f64>,
+    }
+    let mut chains: Vec<Chain> = FAST_SAMPLERS
+        .iter()
+        .map(|&kind| {
+            let mut engine = engine(&corpus, kind);
+            let mut one_state = start.clone();
+            let mut many_state = start.clone();
+            one.install(|| engine.sweep(&mut one_state, &corpus, &priors, 7, 1));
+            many.install(|| engine.sweep(&mut many_state, &corpus, &priors, 7, 1));
+            Chain {
+                kind,
+                engine,
+                one: one_state,
+                many: many_state,
+                rates: Vec::new(),
+                parallel_rates: Vec::new(),
+                speedups: Vec::new(),
+                thread_speedups: Vec::new(),
+            }
+        })
+        .collect();
     let mut reference = start;
     let mut reference_rng = Xoshiro256PlusPlus::seed_from_u64(2);
     progress("reference: untimed first sweep");
     sampler::sweep_reference(&mut reference, &corpus, &priors, &mut reference_rng);
     let reference_bytes = reference.heap_bytes() + case.topics * 16;
 
-    let tokens = corpus.n_tokens() as f64;
-    let (mut reference_rates, mut fast_rates, mut parallel_rates) = (Vec::new(), Vec::new(), Vec::new());
-    let (mut speedups, mut thread_speedups) = (Vec::new(), Vec::new());
+    let mut reference_rates = Vec::new();
     for sweep in 0..case.sweeps {
         progress(&format!("sweep {} of {}", sweep + 1, case.sweeps));
         let iteration = sweep as u64 + 2;
         let reference_seconds =
             timed(|| sampler::sweep_reference(&mut reference, &corpus, &priors, &mut reference_rng));
-        let fast_seconds = timed(|| one.install(|| engine.sweep(&mut fast, &corpus, &priors, 7, iteration)));
-        let parallel_seconds =
-            timed(|| many.install(|| engine.sweep(&mut parallel, &corpus, &priors, 7, iteration)));
         reference_rates.push(tokens / reference_seconds);
-        fast_rates.push(tokens / fast_seconds);
-        parallel_rates.push(tokens / parallel_seconds);
-        speedups.push(reference_seconds / fast_seconds);
-        thread_speedups.push(fast_seconds / parallel_seconds);
+        for chain in &mut chains {
+            let Chain {
+                engine,
+                one: one_state,
+                many: many_state,
+                ..
+            } = chain;
+            let fast_seconds =
+                timed(|| one.install(|| engine.sweep(one_state, &corpus, &priors, 7, iteration)));
+            let parallel_seconds =
+                timed(|| many.install(|| engine.sweep(many_state, &corpus, &priors, 7, iteration)));
+            chain.rates.push(tokens / fast_seconds);
+            chain.parallel_rates.push(tokens / parallel_seconds);
+            chain.speedups.push(reference_seconds / fast_seconds);
+            chain.thread_speedups.push(fast_seconds / parallel_seconds);
+        }
     }
-    ThroughputRow {
-        case: case.clone(),
-        fast_sampler,
-        shards: engine.shards().len(),
-        reference_per_second: median(&reference_rates),
-        fast_per_second: median(&fast_rates),
-        speedup: median(&speedups),
-        threads,
-        parallel_per_second: median(&parallel_rates),
-        thread_speedup: median(&thread_speedups),
-        parallel_identical: fast == parallel,
-        reference_bytes_per_token: reference_bytes as f64 / tokens,
-        fast_bytes_per_token: fast_bytes as f64 / tokens,
-        fast_peak_rss,
-        log_likelihood: (
-            sampler::log_likelihood(&reference, &corpus, &priors).total(),
-            sampler::log_likelihood(&fast, &corpus, &priors).total(),
-        ),
+    let reference_log_likelihood = sampler::log_likelihood(&reference, &corpus, &priors).total();
+    chains
+        .into_iter()
+        .zip(memory_of)
+        .map(|(chain, (fast_peak_rss, fast_bytes_per_token))| ThroughputRow {
+            case: case.clone(),
+            fast_sampler: chain.kind,
+            auto: chain.kind == auto,
+            shards: chain.engine.shards().len(),
+            reference_per_second: median(&reference_rates),
+            fast_per_second: median(&chain.rates),
+            speedup: median(&chain.speedups),
+            threads,
+            parallel_per_second: median(&chain.parallel_rates),
+            thread_speedup: median(&chain.thread_speedups),
+            parallel_identical: chain.one == chain.many,
+            reference_bytes_per_token: reference_bytes as f64 / tokens,
+            fast_bytes_per_token,
+            fast_peak_rss,
+            log_likelihood: (
+                reference_log_likelihood,
+                sampler::log_likelihood(&chain.one, &corpus, &priors).total(),
+            ),
+        })
+        .collect()
+}
+
+/// How a time-to-quality comparison is run.
+#[derive(Clone, Debug, PartialEq)]
+pub struct QualitySettings {
+    pub topics: usize,
+    /// Sweeps of the reference; its held-out perplexity after them is the target.
+    pub reference_sweeps: usize,
+    /// Perplexity is measured every this many reference sweeps.
+    pub reference_every: usize,
+    /// Share of documents held out (chosen by `score::holdout_mask`).
+    pub heldout_share: f64,
+    /// Held-out documents are taken, in corpus order, up to this many tokens.
+    pub heldout_tokens: usize,
+    /// The fold-in chain of document completion.
+    pub fold_in: FoldInSettings,
+    /// A fast sampler stops once it has swept for this share of the
+    /// reference's time (with a stand-in: three times the stand-in's time).
+    pub time_cap: f64,
+    /// Threads of the fast samplers (the reference runs on one).
+    pub threads: usize,
+    /// The fast samplers compared.
+    pub samplers: Vec<SamplerKind>,
+    /// When set, the reference is too slow to run: this exact-draw kernel's
+    /// chain stands in for the reference's quality after
+    /// `reference_sweeps` sweeps, and the reference's time is
+    /// `reference_sweeps` times the median of this many timed reference sweeps.
+    pub stand_in: Option<(SamplerKind, usize)>,
+}
+
+impl QualitySettings {
+    /// The settings of `themata bench` for K topics on `threads` threads.
+    pub fn standard(topics: usize, threads: usize) -> QualitySettings {
+        QualitySettings {
+            topics,
+            reference_sweeps: 300,
+            reference_every: 10,
+            heldout_share: 0.1,
+            heldout_tokens: 30_000,
+            fold_in: FoldInSettings {
+                burn_in: 20,
+                samples: 5,
+                lag: 2,
+            },
+            time_cap: 0.3,
+            threads,
+            samplers: FAST_SAMPLERS.to_vec(),
+            stand_in: None,
+        }
     }
 }
 
-/// Log-likelihood against sweep time: the reference for `case.sweeps`
-/// sweeps and the fast sampler (one thread) from the same start, interleaved,
-/// the fast one until it reaches the reference's final log-likelihood or has
-/// swept as long as the reference did. Points every `every` sweeps.
-pub fn convergence(case: &Case, every: usize, progress: &mut dyn FnMut(&str)) -> Convergence {
-    let setup = Setup::new(case, progress);
-    let Setup {
-        corpus,
-        priors,
-        fast_sampler,
-        start,
-        ..
-    } = &setup;
-    let every = every.max(1);
-    let log_likelihood = |state: &CountState| sampler::log_likelihood(state, corpus, priors).total();
-    let mut point = |label: &str, sweep: usize, seconds: f64, state: &CountState| {
-        let point = TracePoint {
-            sweep,
-            seconds,
-            log_likelihood: log_likelihood(state),
+/// Held-out perplexity after some sweeping.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct QualityPoint {
+    pub sweep: usize,
+    /// Seconds of sweeping so far.
+    pub seconds: f64,
+    pub perplexity: f64,
+}
+
+/// One sampler's way to quality.
+#[derive(Clone, Debug)]
+pub struct QualityTrace {
+    pub sampler: SamplerKind,
+    pub threads: usize,
+    /// Shards (1 for the reference).
+    pub shards: usize,
+    pub points: Vec<QualityPoint>,
+    /// The first point at or below the target perplexity.
+    pub reached: Option<QualityPoint>,
+    /// Seconds of reference sweeps timed while this sampler ran, one
+    /// between every few of its measurements, on the same machine at the
+    /// same time (empty for the reference).
+    pub paired_reference_sweeps: Vec<f64>,
+}
+
+/// The outcome of one time-to-quality comparison.
+#[derive(Clone, Debug)]
+pub struct QualityRun {
+    pub label: String,
+    pub settings: QualitySettings,
+    /// The training part's shape.
+    pub shape: CorpusShape,
+    pub heldout_documents: usize,
+    pub heldout_tokens: usize,
+    /// What `auto` picks for the training part.
+    pub auto: SamplerKind,
+    /// The reference (or its stand-in: see `QualitySettings::stand_in`).
+    pub reference: QualityTrace,
+    /// The reference's seconds for all its sweeps: measured, or estimated
+    /// from timed sweeps when a stand-in ran.
+    pub reference_seconds: f64,
+    /// The reference's perplexity after its sweeps: the target.
+    pub target: f64,
+    pub fast: Vec<QualityTrace>,
+}
+
+impl QualityRun {
+    /// A fast sampler's time to the target over the reference's time for its sweeps.
+    pub fn time_ratio(&self, trace: &QualityTrace) -> Option<f64> {
+        Some(trace.reached?.seconds / self.reference_seconds)
+    }
+
+    /// The same over the reference's time estimated from the reference
+    /// sweeps timed alongside that sampler (sweeps times their median).
+    pub fn paired_time_ratio(&self, trace: &QualityTrace) -> Option<f64> {
+        let pace = median(&trace.paired_reference_sweeps);
+        (pace > 0.0).then_some(())?;
+        Some(trace.reached?.seconds / (pace * self.settings.reference_sweeps as f64))
+    }
+}
+
+/// Scores states of a chain on the fixed held-out documents.
+struct Scorer {
+    model: Model,
+    documents: Vec<EncodedDocument>,
+    settings: ScoreSettings,
+}
+
+impl Scorer {
+    fn new(
+        train: &Corpus,
+        start: &CountState,
+        priors: &Priors,
+        documents: Vec<EncodedDocument>,
+        fold_in: FoldInSettings,
+    ) -> Scorer {
+        let n_topics = start.n_topics;
+        let model = Model {
+            corpus: train.clone(),
+            priors: priors.clone(),
+            state: start.clone(),
+            iterations_done: 0,
+            target: 0,
+            schedule: Schedule {
+                sampler: SamplerKind::Reference,
+                shards: 1,
+                burn_in: 0,
+                learn_alpha: false,
+                learn_beta: false,
+                learn_every: 1,
+                samples: 1,
+                lag: 1,
+                trace_every: 1,
+            },
+            seed: 0,
+            rng: Xoshiro256PlusPlus::seed_from_u64(0),
+            trace: Vec::new(),
+            alpha_trace: Vec::new(),
+            beta_trace: Vec::new(),
+            samples: Vec::new(),
+            topic_ids: (0..n_topics as u32).collect(),
         };
-        progress(&format!(
-            "{label} sweep {sweep}: {:.4e} after {seconds:.1} s",
-            point.log_likelihood
-        ));
-        point
-    };
+        Scorer {
+            model,
+            documents,
+            settings: ScoreSettings {
+                method: Method::Completion,
+                particles: 1,
+                fold_in,
+                seed: 11,
+            },
+        }
+    }
 
-    // The two chains run interleaved, FAST_PER_REFERENCE fast sweeps after
-    // each reference sweep, so that both see the same machine: run one after
-    // the other, minutes apart, their times were seen to drift by a third.
-    // Which fast point first reaches the reference's final value is decided
-    // once the reference has finished; if none has by then, the fast chain
-    // goes on alone.
-    let one = pool(1);
-    let mut engine = setup.engine();
-    let mut reference_state = start.clone();
-    let mut fast_state = start.clone();
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(2);
-    let initial = TracePoint {
-        sweep: 0,
-        seconds: 0.0,
-        log_likelihood: log_likelihood(start),
-    };
-    let (mut reference, mut fast) = (vec![initial], vec![initial]);
-    let mut reference_seconds = 0.0;
-    let fast_every = every.div_ceil(2).max(1);
-    // Sweep number and seconds of the fast chain.
-    let mut fast_clock = (0usize, 0.0f64);
-    let mut fast_step = |fast: &mut Vec<TracePoint>,
-                         point: &mut dyn FnMut(&str, usize, f64, &CountState) -> TracePoint|
-     -> f64 {
-        let (sweep, seconds) = &mut fast_clock;
-        *sweep += 1;
-        *seconds += timed(|| one.install(|| engine.sweep(&mut fast_state, corpus, priors, 7, *sweep as u64)));
-        if *sweep % fast_every == 0 {
-            fast.push(point("fast", *sweep, *seconds, &fast_state));
-        }
-        *seconds
-    };
-    for sweep in 1..=case.sweeps {
-        reference_seconds +=
-            timed(|| sampler::sweep_reference(&mut reference_state, corpus, priors, &mut rng));
-        if sweep % every == 0 || sweep == case.sweeps {
-            reference.push(point("reference", sweep, reference_seconds, &reference_state));
-        }
-        for _ in 0..FAST_PER_REFERENCE {
-            fast_step(&mut fast, &mut point);
-        }
-    }
-    let target = reference
-        .last()
-        .map_or(f64::INFINITY, |point| point.log_likelihood);
-    let mut reached = fast
-        .iter()
-        .copied()
-        .find(|point| point.sweep > 0 && point.log_likelihood >= target);
-    let mut fast_seconds = fast.last().map_or(0.0, |point| point.seconds);
-    while reached.is_none() && fast_seconds < reference_seconds {
-        fast_seconds = fast_step(&mut fast, &mut point);
-        let last = *fast.last().expect("the initial point");
-        if last.sweep > 0 && last.log_likelihood >= target {
-            reached = Some(last);
-        }
-    }
-    // Points past the one that reached the target say nothing more.
-    if let Some(hit) = reached {
-        fast.retain(|point| point.sweep <= hit.sweep);
-    }
-    Convergence {
-        case: case.clone(),
-        fast_sampler: *fast_sampler,
-        reference,
-        fast,
-        reached,
+    /// Held-out perplexity (document completion) of the topics of `state`.
+    fn perplexity(&mut self, state: &mut CountState) -> f64 {
+        std::mem::swap(&mut self.model.state, state);
+        self.model.samples = vec![Sample::of(&self.model, 0)];
+        let scored = score::score_heldout(&self.model, &self.documents, &self.settings);
+        self.model.samples.clear();
+        std::mem::swap(&mut self.model.state, state);
+        scored
+            .ok()
+            .and_then(|scored| scored.heldout_perplexity)
+            .unwrap_or(f64::INFINITY)
     }
 }
 
-/// A long run of the fast sampler alone on `threads` threads.
+/// Sweeps after which a fast sampler's perplexity is measured: every 5 up
+/// to 100, then every 10.
+fn fast_measures_after(sweep: usize) -> bool {
+    if sweep <= 100 {
+        sweep.is_multiple_of(5)
+    } else {
+        sweep.is_multiple_of(10)
+    }
+}
+
+/// Time to quality on `corpus`: a share of its documents is held out; the
+/// reference sweeps the rest from a random start on one thread, its
+/// held-out perplexity measured every few sweeps; its perplexity after its
+/// last sweep is the target; then each fast sampler sweeps from the same
+/// start on `threads` threads until its perplexity is at or below the
+/// target or it has swept for `time_cap` of the reference's time. While a
+/// fast sampler runs, a reference sweep is timed between every few of its
+/// measurements, so that its time can also be compared with the
+/// reference's pace on the machine as it was then.
+pub fn time_to_quality(
+    label: &str,
+    corpus: &Corpus,
+    settings: &QualitySettings,
+    progress: &mut dyn FnMut(&str),
+) -> QualityRun {
+    let n_topics = settings.topics;
+    let mask = score::holdout_mask(corpus, settings.heldout_share, 7);
+    let (train, held) = score::split_corpus(corpus, &mask);
+    let mut documents = Vec::new();
+    let mut heldout_tokens = 0;
+    for document in score::corpus_documents(&held) {
+        if heldout_tokens + document.tokens.len() > settings.heldout_tokens && !documents.is_empty() {
+            break;
+        }
+        heldout_tokens += document.tokens.len();
+        documents.push(document);
+    }
+    let heldout_documents = documents.len();
+    let priors = priors_for(n_topics);
+    let shape = CorpusShape::of(&train, n_topics);
+    let auto = SamplerChoice::Auto.resolve(&shape);
+    let start = CountState::random(&train, n_topics, &mut Xoshiro256PlusPlus::seed_from_u64(1));
+    let mut scorer = Scorer::new(&train, &start, &priors, documents, settings.fold_in);
+    let many = pool(settings.threads);
+
+    // The reference, or the stand-in for its quality.
+    let mut reference_state = start.clone();
+    let mut reference_rng = Xoshiro256PlusPlus::seed_from_u64(2);
+    let mut points = Vec::new();
+    let mut seconds = 0.0;
+    let (reference_kind, reference_threads, mut stand_in_engine) = match settings.stand_in {
+        Some((kind, _)) => (kind, settings.threads, Some(engine(&train, kind))),
+        None => (SamplerKind::Reference, 1, None),
+    };
+    for sweep in 1..=settings.reference_sweeps {
+        seconds += match &mut stand_in_engine {
+            Some(engine) => timed(|| {
+                many.install(|| engine.sweep(&mut reference_state, &train, &priors, 7, sweep as u64))
+            }),
+            None => {
+                timed(|| sampler::sweep_reference(&mut reference_state, &train, &priors, &mut reference_rng))
+            }
+        };
+        if sweep.is_multiple_of(settings.reference_every) || sweep == settings.reference_sweeps {
+            let perplexity = many.install(|| scorer.perplexity(&mut reference_state));
+            progress(&format!(
+                "{label} K = {n_topics}: {} sweep {sweep}: perplexity {perplexity:.2} after {seconds:.1} s",
+                reference_kind.name()
+            ));
+            points.push(QualityPoint {
+                sweep,
+                seconds,
+                perplexity,
+            });
+        }
+    }
+    let target = points.last().map_or(f64::INFINITY, |point| point.perplexity);
+    let reference_seconds = match settings.stand_in {
+        Some((_, timed_sweeps)) => {
+            let mut timing_state = start.clone();
+            let sweeps: Vec<f64> = (0..timed_sweeps.max(1))
+                .map(|idx| {
+                    progress(&format!(
+                        "{label} K = {n_topics}: timing reference sweep {}",
+                        idx + 1
+                    ));
+                    timed(|| sampler::sweep_reference(&mut timing_state, &train, &priors, &mut reference_rng))
+                })
+                .collect();
+            median(&sweeps) * settings.reference_sweeps as f64
+        }
+        None => seconds,
+    };
+    let reference = QualityTrace {
+        sampler: reference_kind,
+        threads: reference_threads,
+        shards: stand_in_engine.as_ref().map_or(1, |engine| engine.shards().len()),
+        reached: points.last().copied(),
+        points,
+        paired_reference_sweeps: Vec::new(),
+    };
+
+    // With a stand-in, the reference's time is an estimate far beyond what
+    // is run; the fast samplers then stop at three times the stand-in's time.
+    let cap_seconds = match settings.stand_in {
+        Some(_) => 3.0 * seconds,
+        None => settings.time_cap * reference_seconds,
+    };
+    let mut fast = Vec::new();
+    for &kind in &settings.samplers {
+        if settings.stand_in.is_some_and(|(stand_in, _)| stand_in == kind) {
+            continue;
+        }
+        let mut engine = engine(&train, kind);
+        let mut state = start.clone();
+        let mut timing_state = reference_state.clone();
+        let mut points = Vec::new();
+        let mut paired = Vec::new();
+        let mut seconds = 0.0;
+        let mut reached = None;
+        let mut sweep = 0;
+        while reached.is_none() && seconds < cap_seconds {
+            sweep += 1;
+            seconds += timed(|| many.install(|| engine.sweep(&mut state, &train, &priors, 7, sweep as u64)));
+            if !fast_measures_after(sweep) && seconds < cap_seconds {
+                continue;
+            }
+            let perplexity = many.install(|| scorer.perplexity(&mut state));
+            progress(&format!(
+                "{label} K = {n_topics}: {} sweep {sweep}: perplexity {perplexity:.2} after {seconds:.1} s (target {target:.2})",
+                kind.name()
+            ));
+            let point = QualityPoint {
+                sweep,
+                seconds,
+                perplexity,
+            };
+            points.push(point);
+            if perplexity <= target {
+                reached = Some(point);
+            }
+            if settings.stand_in.is_none() && (points.len() % 4 == 1 || reached.is_some()) {
+                paired.push(timed(|| {
+                    sampler::sweep_reference(&mut timing_state, &train, &priors, &mut reference_rng)
+                }));
+            }
+        }
+        fast.push(QualityTrace {
+            sampler: kind,
+            threads: settings.threads,
+            shards: engine.shards().len(),
+            points,
+            reached,
+            paired_reference_sweeps: paired,
+        });
+    }
+    QualityRun {
+        label: label.to_string(),
+        settings: settings.clone(),
+        shape,
+        heldout_documents,
+        heldout_tokens,
+        auto,
+        reference,
+        reference_seconds,
+        target,
+        fast,
+    }
+}
+
+/// A long run of the fast sampler `auto` picks, alone on `threads` threads.
 pub fn large_run(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) -> LargeRun {
     let started = Instant::now();
-    let setup = Setup::new(case, progress);
+    progress(&format!(
+        "generating {} tokens, V = {}, K = {}",
+        case.tokens, case.words, case.topics
+    ));
+    let corpus = corpus_of(case);
     let generate_seconds = started.elapsed().as_secs_f64();
+    let peak_reset = memory::reset_peak();
+    let priors = priors_for(case.topics);
+    let fast_sampler = SamplerChoice::Auto.resolve(&CorpusShape::of(&corpus, case.topics));
+    let mut state = CountState::random(&corpus, case.topics, &mut Xoshiro256PlusPlus::seed_from_u64(1));
     let many = pool(threads);
-    let mut engine = setup.engine();
-    let Setup {
-        corpus,
-        priors,
-        fast_sampler,
-        start,
-        ..
-    } = setup;
-    let mut state = start;
+    let mut engine = engine(&corpus, fast_sampler);
     let log_likelihood_first = sampler::log_likelihood(&state, &corpus, &priors).total();
     let mut sweep_seconds = 0.0;
     for sweep in 1..=case.sweeps {
@@ -401,6 +663,11 @@ pub fn large_run(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) ->
             (sweep * corpus.n_tokens()) as f64 / sweep_seconds / 1e6
         ));
     }
+    let fit_peak_rss = if peak_reset {
+        memory::peak_rss_bytes()
+    } else {
+        None
+    };
     LargeRun {
         case: case.clone(),
         fast_sampler,
@@ -410,7 +677,8 @@ pub fn large_run(case: &Case, threads: usize, progress: &mut dyn FnMut(&str)) ->
         sweep_seconds,
         log_likelihood_first,
         log_likelihood_last: sampler::log_likelihood(&state, &corpus, &priors).total(),
-        peak_rss: memory::peak_rss_bytes(),
+        peak_rss: memory::peak_rss_bytes().map(|peak| peak.max(fit_peak_rss.unwrap_or(0))),
+        fit_peak_rss,
     }
 }
 
@@ -435,9 +703,12 @@ mod tests {
             topics: 12,
             sweeps: 2,
         };
-        let row = throughput(&case, 2, &mut |_| {});
-        assert!(row.parallel_identical);
-        assert!(row.reference_per_second > 0.0 && row.fast_per_second > 0.0);
-        assert!(row.log_likelihood.0.is_finite() && row.log_likelihood.1.is_finite());
+        let rows = throughput(&case, 2, &mut |_| {});
+        assert_eq!(rows.len(), FAST_SAMPLERS.len());
+        for row in rows {
+            assert!(row.parallel_identical, "{:?}", row.fast_sampler);
+            assert!(row.reference_per_second > 0.0 && row.fast_per_second > 0.0);
+            assert!(row.log_likelihood.0.is_finite() && row.log_likelihood.1.is_finite());
+        }
     }
 }

@@ -898,9 +898,11 @@ fn bench_runs_quickly_and_prints_its_tables() {
         "fast/ref",
         "tok/s",
         "B/tok fast",
-        "log-likelihood against sweep time",
+        "time to quality",
+        "time to target",
         "exact",
         "metropolis",
+        "sparse",
     ] {
         assert!(text.contains(expected), "bench output lacks {expected}:\n{text}");
     }
