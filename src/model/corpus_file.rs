@@ -35,7 +35,7 @@ pub fn load_corpus(path: &Path) -> Result<Corpus, FormatError> {
 
 /// Decodes a corpus file image of any readable version and checks its
 /// contents (`path` names it in errors).
-fn decode_corpus(bytes: Vec<u8>, path: &Path) -> Result<Corpus, FormatError> {
+pub fn decode_corpus(bytes: Vec<u8>, path: &Path) -> Result<Corpus, FormatError> {
     let shape = format::decode_versioned(FileKind::Corpus, &bytes, path, |version, payload| {
         if version == 1 {
             Ok(format::decode_payload::<CorpusV1>(payload, path)?.upgrade())

@@ -66,7 +66,7 @@ pub(super) fn load(path: &Path) -> Result<Model, FormatError> {
 
 /// Decodes a model file image of any readable version and checks its
 /// contents (`path` names it in errors).
-fn decode(bytes: Vec<u8>, path: &Path) -> Result<Model, FormatError> {
+pub(super) fn decode(bytes: Vec<u8>, path: &Path) -> Result<Model, FormatError> {
     let shape = format::decode_versioned(FileKind::Model, &bytes, path, |version, payload| match version {
         1 => Ok(format::decode_payload::<ModelV1>(payload, path)?
             .upgrade(path)?
@@ -368,7 +368,11 @@ impl ModelV2 {
     fn upgrade(self) -> ModelV3 {
         ModelV3 {
             corpus: self.corpus.upgrade(),
-            topic_ids: (0..self.n_topics).collect(),
+            // Capped, so that a damaged topic count cannot make this list
+            // huge: `into_model` refuses a count above the limit first.
+            // (Found by the `model_file` fuzz target: 108 bytes claiming
+            // about 2^31 topics took seconds and gigabytes here.)
+            topic_ids: (0..self.n_topics.min(MAX_TOPICS as u32)).collect(),
             n_topics: self.n_topics,
             priors: self.priors,
             assignments: self.assignments,

@@ -83,7 +83,8 @@ pub enum FormatError {
     )]
     BadMagic { path: PathBuf, expected: &'static str },
     #[error(
-        "{path}: {kind} format version {found} is not supported by this build (it reads versions {oldest} to {newest}); rebuild the file with this version of themata"
+        "{path}: {kind} format version {found} is not supported by this build (it reads versions {oldest} to {newest}); {}",
+        if found > newest { "it was written by a newer themata: read it with that version, or rebuild it with this one" } else { "rebuild the file with this version of themata" }
     )]
     UnsupportedVersion {
         path: PathBuf,

@@ -268,12 +268,16 @@ pub(super) fn read_csv<R: Read>(
             collector.skip(DiagnosticKind::BadRecord, origin, None, message);
             continue;
         }
+        if record.as_slice().len() > options.max_document_bytes {
+            collector.skip_too_long(origin.file, origin.line, None, options.max_document_bytes);
+            continue;
+        }
         if record.len() != columns.len() {
-            let message = format!(
-                "record has {} fields but the header row has {}",
-                record.len(),
-                columns.len()
-            );
+            let fields = match record.len() {
+                1 => "1 field".to_string(),
+                count => format!("{count} fields"),
+            };
+            let message = format!("record has {fields} but the header row has {}", columns.len());
             collector.skip(DiagnosticKind::BadRecord, origin, None, message);
             continue;
         }
