@@ -7,6 +7,16 @@
 //!
 //! Validation happens here, without I/O, before anything is read or fitted.
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 use std::collections::HashSet;
 use std::path::{Path, PathBuf};
 

@@ -22,6 +22,16 @@
 //! - The input `-` is standard input, read as JSON Lines (as CSV with the CSV
 //!   format, as one text document with the text format).
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 mod csv_table;
 mod folder;
 mod json_lines;
