@@ -1038,3 +1038,93 @@ fn failing_disk_a_full_standard_output_is_exit_3() {
     );
     assert!(String::from_utf8_lossy(&output.stderr).contains("No space left on device"));
 }
+
+#[test]
+fn an_input_growing_while_read_gives_whole_documents_and_at_most_one_cut_line() {
+    // Source: POSIX read(2) (a read at the current end of a file returns 0,
+    // end of input, even while another process is still writing). Lines
+    // are appended in two writes each while `build` reads: it reads what is
+    // there when it reaches the end, so every document it keeps is a whole
+    // line, and only the last line it saw can be cut (then refused as bad
+    // JSON with its line, not kept half).
+    let scratch = Scratch::new();
+    let path = scratch.write(
+        "grow.jsonl",
+        "{\"id\":\"first\",\"text\":\"tide quay harbour\"}\n",
+    );
+    let mut file = std::fs::OpenOptions::new().append(true).open(&path).unwrap();
+    let child = Process::new(assert_cmd::cargo::cargo_bin("themata"))
+        .current_dir(scratch.root())
+        .args(["build", "grow.jsonl", "--out", "corpus.bin"])
+        .args(KEEP_ALL)
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    for doc in 0..20_000 {
+        let line = format!("{{\"id\":\"d{doc}\",\"text\":\"soil seed furrow tide\"}}\n");
+        let (head, tail) = line.split_at(line.len() / 2);
+        file.write_all(head.as_bytes()).unwrap();
+        file.write_all(tail.as_bytes()).unwrap();
+    }
+    let output = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(0), "{stderr}");
+    let skipped: Vec<&str> = stderr.lines().filter(|line| line.contains("skipped:")).collect();
+    assert!(skipped.len() <= 1, "{skipped:?}");
+    let kept = corpus_ids(&scratch);
+    for line in &skipped {
+        assert!(line.contains("line is not valid JSON"), "{line}");
+        let number: usize = line.split(':').nth(2).unwrap().trim().parse().unwrap();
+        assert_eq!(
+            number,
+            kept.len() + 1,
+            "only the last line seen can be cut: {line}"
+        );
+    }
+    assert_eq!(kept[0], "first");
+    for (index, id) in kept.iter().enumerate().skip(1) {
+        assert_eq!(id, &format!("d{}", index - 1));
+    }
+}
+
+#[test]
+fn files_removed_from_a_folder_while_it_is_read_are_reported_not_fatal() {
+    // Source: POSIX open(2) (ENOENT for a name removed since the folder was
+    // listed). A thread removes files while `build` walks the folder: each
+    // file is either read whole or reported as unreadable by name; the
+    // command ends normally with what it read.
+    let scratch = Scratch::new();
+    for doc in 0..3000 {
+        scratch.write(&format!("docs/{doc:05}.txt"), "tide quay harbour soil");
+    }
+    let child = Process::new(assert_cmd::cargo::cargo_bin("themata"))
+        .current_dir(scratch.root())
+        .args(["build", "docs", "--out", "corpus.bin"])
+        .args(KEEP_ALL)
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let folder = scratch.path("docs");
+    let remover = std::thread::spawn(move || {
+        for doc in (1000..3000).rev() {
+            let _ = std::fs::remove_file(folder.join(format!("{doc:05}.txt")));
+        }
+    });
+    let output = child.wait_with_output().unwrap();
+    remover.join().unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(0), "{stderr}");
+    let kept = corpus_ids(&scratch);
+    assert!(
+        kept.len() >= 1000,
+        "the files never removed are read: {}",
+        kept.len()
+    );
+    for line in stderr.lines().filter(|line| line.contains("skipped:")) {
+        let reported = line.contains("cannot be opened") || line.contains("cannot be read");
+        assert!(reported || line.contains("skipped: ... and "), "{line}");
+    }
+    eprintln!("{} of 3000 files read while 2000 were being removed", kept.len());
+}
