@@ -7,6 +7,16 @@
 //!
 //! Validation happens here, without I/O, before anything is read or fitted.
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 use std::collections::HashSet;
 use std::path::{Path, PathBuf};
 
@@ -21,8 +31,8 @@ use crate::fitting::fit::{
 use crate::fitting::sampler::{self, MAX_AUTO_SHARDS, MAX_TOPICS};
 use crate::fitting::schedule::{SamplerChoice, SamplerKind};
 use crate::ingest::read::{
-    DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_TEXT_FIELD, FieldRole, InputFormat,
-    NamedField, ReadOptions,
+    DEFAULT_DATE_FIELD, DEFAULT_ID_FIELD, DEFAULT_LABEL_FIELD, DEFAULT_MAX_DOCUMENT_BYTES,
+    DEFAULT_TEXT_FIELD, FieldRole, InputFormat, NamedField, ReadOptions,
 };
 use crate::ingest::tokenize::{
     self, DEFAULT_MAX_LENGTH, DEFAULT_MIN_LENGTH, DEFAULT_STOPWORDS, TokenizerSettings,
@@ -275,6 +285,13 @@ pub struct InputOptions {
         help = help("Cut documents longer than N tokens into chunks of N tokens (the last one shorter), each a document of its own, named ID#1, ID#2, ...; listings can sum them back (--merge-chunks)", "documents are kept whole")
     )]
     pub split_every: Option<usize>,
+    #[arg(
+        long,
+        value_name = "BYTES",
+        value_parser = AT_LEAST_ONE.parser::<usize>(),
+        help = help("Skip, with a diagnostic, a document longer than this many bytes (a text file, a JSON line, a CSV record), so one runaway record cannot exhaust memory", DEFAULT_MAX_DOCUMENT_BYTES)
+    )]
+    pub max_document_bytes: Option<usize>,
 }
 overlay!(InputOptions {
     paths,
@@ -284,7 +301,8 @@ overlay!(InputOptions {
     label_field,
     date_field,
     strict,
-    split_every
+    split_every,
+    max_document_bytes
 });
 
 impl InputOptions {
@@ -304,6 +322,13 @@ impl InputOptions {
             id_field: field("id_field", &self.id_field, DEFAULT_ID_FIELD)?,
             label_field: field("label_field", &self.label_field, DEFAULT_LABEL_FIELD)?,
             date_field: field("date_field", &self.date_field, DEFAULT_DATE_FIELD)?,
+            max_document_bytes: match self.max_document_bytes {
+                Some(bytes) => {
+                    AT_LEAST_ONE.check("max_document_bytes", bytes as u64)?;
+                    bytes
+                }
+                None => DEFAULT_MAX_DOCUMENT_BYTES,
+            },
             unique_ids: true,
             named_fields: [
                 (FieldRole::Id, &self.id_field),
@@ -1156,11 +1181,17 @@ impl RunConfig {
             path: path.to_path_buf(),
             message: format!("cannot read the config file: {err}"),
         })?;
-        let mut config: RunConfig = toml::from_str(&text).map_err(|err| {
-            let line = err.span().map_or(1, |span| line_of(&text, span.start));
+        RunConfig::parse(&text, path)
+    }
+
+    /// [`RunConfig::load`] on the text of a config file (`path` names it in
+    /// errors and relative paths are taken from its folder).
+    pub fn parse(text: &str, path: &Path) -> Result<RunConfig, SettingsError> {
+        let mut config: RunConfig = toml::from_str(text).map_err(|err| {
+            let line = err.span().map_or(1, |span| line_of(text, span.start));
             let message = plain_type_names(err.message().trim());
             // Name the key of that line, unless the message already does.
-            let message = match key_at_line(&text, line) {
+            let message = match key_at_line(text, line) {
                 Some(key) if !message.contains(&key) => format!("{key}: {message}"),
                 _ => message,
             };
@@ -1170,7 +1201,7 @@ impl RunConfig {
                 message,
             }
         })?;
-        config.validate_in_file(path, &text)?;
+        config.validate_in_file(path, text)?;
         let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
         let rebase = |p: &PathBuf| {
             if p.is_absolute() {

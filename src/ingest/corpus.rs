@@ -186,6 +186,11 @@ pub enum CorpusError {
         .summary.describe()
     )]
     Empty { summary: Box<BuildSummary> },
+    /// More tokens than a corpus may hold.
+    #[error(
+        "the corpus would hold {tokens} tokens, more than the {MAX_TOKENS} a corpus can hold; build it from fewer documents, prune more words (--max-words, --min-docs) or split the collection"
+    )]
+    TooManyTokens { tokens: usize },
 }
 
 fn is_zero(value: &usize) -> bool {
@@ -234,6 +239,19 @@ fn kind_name(kind: DiagnosticKind) -> String {
         .ok()
         .and_then(|value| value.as_str().map(str::to_string))
         .unwrap_or_else(|| format!("{kind:?}"))
+}
+
+/// The most tokens a corpus may hold, 2^31 - 1: the sampler keeps token
+/// positions in 32 bits and counts below 2^31. `build` refuses a larger
+/// corpus rather than write a file that no fit could use.
+pub const MAX_TOKENS: usize = i32::MAX as usize;
+
+/// Refuses a corpus of more than [`MAX_TOKENS`] kept tokens.
+fn check_token_count(tokens: usize) -> Result<(), CorpusError> {
+    if tokens > MAX_TOKENS {
+        return Err(CorpusError::TooManyTokens { tokens });
+    }
+    Ok(())
 }
 
 /// Reads, tokenizes and prunes the inputs into a corpus.
@@ -342,6 +360,7 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
         kept_docs.push(info);
     }
     tokens.truncate(write);
+    check_token_count(tokens.len())?;
     tokens.shrink_to_fit();
     warnings.extend(large_documents(&kept_docs, &new_offsets, settings.split_every));
 
@@ -427,6 +446,18 @@ fn parse_origin(source: &str) -> Origin {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_corpus_over_the_token_limit_is_refused_at_build() {
+        // Source: the sampler's own limit (fitting::sampler::MAX_TOKENS, 32-bit
+        // positions; common practice for i32-indexed arrays).
+        assert!(check_token_count(MAX_TOKENS).is_ok());
+        let error = check_token_count(MAX_TOKENS + 1).unwrap_err().to_string();
+        assert!(
+            error.contains("2147483648 tokens, more than the 2147483647"),
+            "{error}"
+        );
+    }
 
     fn settings(split_every: Option<usize>) -> BuildSettings {
         BuildSettings {

@@ -7,6 +7,16 @@
 //! not to the in-memory [`Corpus`], and are never reordered. A change of
 //! shape is a new format version with a reader of its own.
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 use std::collections::HashSet;
 use std::path::Path;
 
@@ -35,7 +45,7 @@ pub fn load_corpus(path: &Path) -> Result<Corpus, FormatError> {
 
 /// Decodes a corpus file image of any readable version and checks its
 /// contents (`path` names it in errors).
-fn decode_corpus(bytes: Vec<u8>, path: &Path) -> Result<Corpus, FormatError> {
+pub fn decode_corpus(bytes: Vec<u8>, path: &Path) -> Result<Corpus, FormatError> {
     let shape = format::decode_versioned(FileKind::Corpus, &bytes, path, |version, payload| {
         if version == 1 {
             Ok(format::decode_payload::<CorpusV1>(payload, path)?.upgrade())
@@ -260,7 +270,12 @@ impl CorpusV2 {
                 self.documents.len()
             )));
         }
-        if let Some(doc) = self.offsets.windows(2).position(|pair| pair[0] > pair[1]) {
+        if let Some(doc) = self
+            .offsets
+            .iter()
+            .zip(self.offsets.iter().skip(1))
+            .position(|(start, end)| start > end)
+        {
             return Err(invalid(format!("the offsets of document {doc} decrease")));
         }
         if self.offsets.last().copied() != Some(self.tokens.len() as u64) {
@@ -270,10 +285,14 @@ impl CorpusV2 {
                 self.tokens.len()
             )));
         }
-        if let Some(position) = self.tokens.iter().position(|&word| word as usize >= n_words) {
+        if let Some((position, word)) = self
+            .tokens
+            .iter()
+            .enumerate()
+            .find(|&(_, &word)| word as usize >= n_words)
+        {
             return Err(invalid(format!(
-                "token {position} is word {} of a vocabulary of {n_words} words",
-                self.tokens[position]
+                "token {position} is word {word} of a vocabulary of {n_words} words"
             )));
         }
         Ok(Corpus {

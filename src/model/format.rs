@@ -14,6 +14,16 @@
 //! The header is checked (magic, version, length, checksum) before a single
 //! payload byte is decoded. Nothing outside this module knows the byte layout.
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 use std::fs::{self, File};
 use std::io::{self, Read, Write};
 use std::path::{Path, PathBuf};
@@ -83,7 +93,8 @@ pub enum FormatError {
     )]
     BadMagic { path: PathBuf, expected: &'static str },
     #[error(
-        "{path}: {kind} format version {found} is not supported by this build (it reads versions {oldest} to {newest}); rebuild the file with this version of themata"
+        "{path}: {kind} format version {found} is not supported by this build (it reads versions {oldest} to {newest}); {}",
+        if found > newest { "it was written by a newer themata: read it with that version, or rebuild it with this one" } else { "rebuild the file with this version of themata" }
     )]
     UnsupportedVersion {
         path: PathBuf,
@@ -144,11 +155,14 @@ pub fn encode<T: Serialize>(kind: FileKind, value: &T, path: &Path) -> Result<Ve
         detail: err.to_string(),
     })?;
     let payload_len = (bytes.len() - HEADER_LEN) as u64;
-    let checksum = crc32fast::hash(&bytes[HEADER_LEN..]);
-    bytes[..8].copy_from_slice(kind.magic());
-    bytes[8..12].copy_from_slice(&kind.current_version().to_le_bytes());
-    bytes[12..20].copy_from_slice(&payload_len.to_le_bytes());
-    bytes[20..24].copy_from_slice(&checksum.to_le_bytes());
+    let checksum = crc32fast::hash(bytes.get(HEADER_LEN..).unwrap_or_default());
+    let mut header = Vec::with_capacity(HEADER_LEN);
+    header.extend_from_slice(kind.magic());
+    header.extend_from_slice(&kind.current_version().to_le_bytes());
+    header.extend_from_slice(&payload_len.to_le_bytes());
+    header.extend_from_slice(&checksum.to_le_bytes());
+    // The image starts with HEADER_LEN bytes of room (`to_extend` above).
+    bytes.splice(..HEADER_LEN, header);
     Ok(bytes)
 }
 
@@ -178,20 +192,46 @@ pub fn decode_versioned<T>(
     decode_payload: impl FnOnce(u32, &[u8]) -> Result<T, FormatError>,
 ) -> Result<T, FormatError> {
     let path_buf = || path.to_path_buf();
-    if bytes.len() < 8 || &bytes[..8] != kind.magic() {
+    if bytes.get(..8) != Some(kind.magic().as_slice()) {
         return Err(FormatError::BadMagic {
             path: path_buf(),
             expected: kind.name(),
         });
     }
-    if bytes.len() < HEADER_LEN {
+    let Some((header, payload)) = bytes.split_first_chunk::<HEADER_LEN>() else {
         return Err(FormatError::BadLength {
             path: path_buf(),
             expected: HEADER_LEN as u64,
             found: bytes.len() as u64,
         });
-    }
-    let version = u32::from_le_bytes(bytes[8..12].try_into().expect("4 bytes"));
+    };
+    let &[
+        _,
+        _,
+        _,
+        _,
+        _,
+        _,
+        _,
+        _,
+        v0,
+        v1,
+        v2,
+        v3,
+        l0,
+        l1,
+        l2,
+        l3,
+        l4,
+        l5,
+        l6,
+        l7,
+        c0,
+        c1,
+        c2,
+        c3,
+    ] = header;
+    let version = u32::from_le_bytes([v0, v1, v2, v3]);
     if !(kind.oldest_version()..=kind.current_version()).contains(&version) {
         return Err(FormatError::UnsupportedVersion {
             path: path_buf(),
@@ -201,9 +241,8 @@ pub fn decode_versioned<T>(
             newest: kind.current_version(),
         });
     }
-    let length = u64::from_le_bytes(bytes[12..20].try_into().expect("8 bytes"));
-    let checksum = u32::from_le_bytes(bytes[20..24].try_into().expect("4 bytes"));
-    let payload = &bytes[HEADER_LEN..];
+    let length = u64::from_le_bytes([l0, l1, l2, l3, l4, l5, l6, l7]);
+    let checksum = u32::from_le_bytes([c0, c1, c2, c3]);
     if payload.len() as u64 != length {
         return Err(FormatError::BadLength {
             path: path_buf(),

@@ -434,4 +434,10 @@ impl Model {
     pub fn load(path: &Path) -> Result<Model, FormatError> {
         file::load(path)
     }
+
+    /// [`Model::load`] on a model file image already in memory (`path`
+    /// names it in errors); the fuzz targets and tests feed it bytes.
+    pub fn decode(bytes: Vec<u8>, path: &Path) -> Result<Model, FormatError> {
+        file::decode(bytes, path)
+    }
 }

@@ -21,6 +21,9 @@ pub struct Identities {
 /// Gives ids to the new topics of `drift`: a predecessor's id when matched
 /// (`old_ids` are the published model's ids by index), else the next fresh
 /// id from `next_id`, in index order.
+// `old_ids[i]`: a drift's old indices are topics of the published model,
+// whose ids list has one entry per topic (checked when the model loads).
+#[allow(clippy::indexing_slicing)]
 pub fn assign_ids(drift: &Drift, old_ids: &[u32], next_id: u32) -> Identities {
     let mut next = next_id;
     let mut ids = Vec::with_capacity(drift.topics.len());

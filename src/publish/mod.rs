@@ -17,6 +17,16 @@
 //!   runs/<stamp>-<n>.rejected/   a run the gate refused
 //! ```
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 pub mod clock;
 pub mod counters;
 pub mod gate;

@@ -221,7 +221,7 @@ impl RunRoot {
         let cut = runs.len().saturating_sub(keep);
         let mut removed = Vec::new();
         let oldest_kept = runs.get(cut).cloned();
-        for name in &runs[..cut] {
+        for name in runs.iter().take(cut) {
             if Some(name) != published.as_ref() {
                 removed.push(name.clone());
             }

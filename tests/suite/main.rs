@@ -8,6 +8,7 @@ mod determinism;
 mod formats;
 mod geweke;
 mod golden;
+mod hardening;
 mod learning;
 mod nightly;
 mod report;

@@ -50,8 +50,8 @@ use crate::ingest::corpus::Corpus;
 /// rebuilt) only this many times per sweep.
 pub const MAX_AUTO_SHARDS: usize = 8;
 /// The largest corpus the sampler takes (token positions are 32-bit, and
-/// counts stay below 2^31).
-pub const MAX_TOKENS: usize = i32::MAX as usize;
+/// counts stay below 2^31); `build` refuses a larger corpus already.
+pub const MAX_TOKENS: usize = crate::ingest::corpus::MAX_TOKENS;
 
 /// Tokens per shard aimed at when the shard count is chosen automatically
 /// (the reference sweep is not sharded).

@@ -149,10 +149,10 @@ impl<R: Read> LineTrackingReader<R> {
 impl<R: Read> Read for LineTrackingReader<R> {
     fn read(&mut self, buffer: &mut [u8]) -> io::Result<usize> {
         let read = self.inner.read(buffer)?;
-        for (index, &byte) in buffer[..read].iter().enumerate() {
+        for (index, &byte) in buffer.get(..read).unwrap_or_default().iter().enumerate() {
             let at = self.offset + index as u64;
             // The csv reader skips a byte order mark before the header.
-            if at < 3 && self.mark_bytes == at && byte == BYTE_ORDER_MARK[at as usize] {
+            if self.mark_bytes == at && BYTE_ORDER_MARK.get(at as usize) == Some(&byte) {
                 self.mark_bytes += 1;
                 continue;
             }
@@ -268,16 +268,22 @@ pub(super) fn read_csv<R: Read>(
             collector.skip(DiagnosticKind::BadRecord, origin, None, message);
             continue;
         }
+        if record.as_slice().len() > options.max_document_bytes {
+            collector.skip_too_long(origin.file, origin.line, None, options.max_document_bytes);
+            continue;
+        }
         if record.len() != columns.len() {
-            let message = format!(
-                "record has {} fields but the header row has {}",
-                record.len(),
-                columns.len()
-            );
+            let fields = match record.len() {
+                1 => "1 field".to_string(),
+                count => format!("{count} fields"),
+            };
+            let message = format!("record has {fields} but the header row has {}", columns.len());
             collector.skip(DiagnosticKind::BadRecord, origin, None, message);
             continue;
         }
-        let cell = |column: usize| std::str::from_utf8(&record[column]);
+        // Every column index is below the header's length, which the record's
+        // was checked to equal; a missing field would read as empty.
+        let cell = |column: usize| std::str::from_utf8(record.get(column).unwrap_or_default());
         let not_utf8 = |field: &str| format!("field `{field}` is not valid UTF-8");
         let id = match id_column.map(cell) {
             None => origin.to_string(),

@@ -175,7 +175,10 @@ pub(super) fn offer_text(bytes: Vec<u8>, id: String, origin_name: String, collec
         Ok(text) => text,
         Err(error) => {
             let valid_bytes = error.utf8_error().valid_up_to();
-            let newlines = error.as_bytes()[..valid_bytes]
+            let newlines = error
+                .as_bytes()
+                .get(..valid_bytes)
+                .unwrap_or_default()
                 .iter()
                 .filter(|byte| **byte == b'\n')
                 .count();

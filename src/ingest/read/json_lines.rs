@@ -29,13 +29,14 @@ pub(super) fn read_json_lines<R: BufRead>(
     let mut fields = FieldsSeen::default();
     loop {
         buffer.clear();
-        let read = reader
-            .read_until(b'\n', &mut buffer)
-            .map_err(|source| ReadError::Io {
-                path: PathBuf::from(origin_name),
-                source,
+        let line =
+            read_line_capped(&mut reader, &mut buffer, options.max_document_bytes).map_err(|source| {
+                ReadError::Io {
+                    path: PathBuf::from(origin_name),
+                    source,
+                }
             })?;
-        if read == 0 {
+        if line == LineRead::End {
             if fields.objects > 0 && !fields.text_field {
                 return Err(ReadError::MissingTextField {
                     path: PathBuf::from(origin_name),
@@ -46,13 +47,77 @@ pub(super) fn read_json_lines<R: BufRead>(
             return Ok(());
         }
         line_number += 1;
-        let mut line = buffer.as_slice();
-        if line_number == 1 {
-            line = line.strip_prefix(BYTE_ORDER_MARK).unwrap_or(line);
+        if line == LineRead::TooLong {
+            collector.counts.records_seen += 1;
+            collector.skip_too_long(
+                origin_name.to_string(),
+                Some(line_number),
+                None,
+                options.max_document_bytes,
+            );
+        } else {
+            let mut line = buffer.as_slice();
+            if line_number == 1 {
+                line = line.strip_prefix(BYTE_ORDER_MARK).unwrap_or(line);
+            }
+            read_json_line(line, line_number, origin_name, options, collector, &mut fields);
         }
-        read_json_line(line, line_number, origin_name, options, collector, &mut fields);
         if buffer.capacity() > LINE_BUFFER_KEEP_BYTES {
             buffer = Vec::with_capacity(READ_BUFFER_BYTES);
+        }
+    }
+}
+
+/// What [`read_line_capped`] found.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum LineRead {
+    /// A line (with its line break, if any) is in the buffer.
+    Line,
+    /// A line longer than the limit was read past; the buffer holds its start.
+    TooLong,
+    /// The input has ended.
+    End,
+}
+
+/// Reads one line into `buffer` (cleared by the caller), keeping at most
+/// `limit` bytes of it: the rest of a longer line is read and dropped, so
+/// memory stays bounded by the limit however long the line.
+fn read_line_capped<R: BufRead>(
+    reader: &mut R,
+    buffer: &mut Vec<u8>,
+    limit: usize,
+) -> std::io::Result<LineRead> {
+    let mut seen = 0usize;
+    loop {
+        let available = match reader.fill_buf() {
+            Ok(available) => available,
+            Err(error) if error.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(error) => return Err(error),
+        };
+        if available.is_empty() {
+            return Ok(match seen {
+                0 => LineRead::End,
+                _ if seen > limit => LineRead::TooLong,
+                _ => LineRead::Line,
+            });
+        }
+        let (taken, complete) = match available.iter().position(|&byte| byte == b'\n') {
+            Some(end) => (end + 1, true),
+            None => (available.len(), false),
+        };
+        // The line break does not count against the limit.
+        let content = taken - usize::from(complete);
+        if seen.saturating_add(content) <= limit {
+            buffer.extend_from_slice(available.get(..taken).unwrap_or(available));
+        }
+        seen = seen.saturating_add(content);
+        reader.consume(taken);
+        if complete {
+            return Ok(if seen > limit {
+                LineRead::TooLong
+            } else {
+                LineRead::Line
+            });
         }
     }
 }
@@ -261,6 +326,40 @@ mod tests {
     }
 
     #[test]
+    fn a_line_longer_than_the_limit_is_skipped_and_the_next_one_read() {
+        // Source: common practice (a size limit per record, as in log
+        // shippers; the limit counts the line without its line break).
+        let long = format!("{{\"id\":\"long\",\"text\":\"{}\"}}", "tide ".repeat(100));
+        let bytes =
+            format!("{{\"id\":\"a\",\"text\":\"seed\"}}\n{long}\r\n{{\"id\":\"b\",\"text\":\"soil\"}}");
+        for limit in [long.len() - 1, 40] {
+            let options = ReadOptions {
+                max_document_bytes: limit,
+                ..options_with(InputFormat::Jsonl)
+            };
+            let outcome = run_json_lines(bytes.as_bytes(), &options);
+            assert_eq!(outcome.ids(), ["a", "b"], "limit {limit}");
+            assert_eq!(outcome.diagnostics.len(), 1);
+            assert_eq!(outcome.diagnostics[0].kind, DiagnosticKind::TooLong);
+            assert_eq!(outcome.diagnostics[0].origin.line, Some(2));
+            assert!(
+                outcome.diagnostics[0]
+                    .message
+                    .contains(&format!("longer than {limit} bytes"))
+            );
+        }
+        // A line of exactly the limit is read (its `\n` is not counted, its `\r` is).
+        let options = ReadOptions {
+            max_document_bytes: long.len() + 1,
+            ..options_with(InputFormat::Jsonl)
+        };
+        assert_eq!(
+            run_json_lines(bytes.as_bytes(), &options).ids(),
+            ["a", "long", "b"]
+        );
+    }
+
+    #[test]
     fn json_lines_field_names_come_from_the_options() {
         let options = ReadOptions {
             date_field: "when".into(),
@@ -270,6 +369,7 @@ mod tests {
             label_field: "topic".into(),
             unique_ids: true,
             named_fields: Vec::new(),
+            max_document_bytes: 1000,
         };
         let bytes = b"{\"key\": \"k1\", \"body\": \"the body\", \"topic\": \"t\", \"when\": \" 2024-03-01 \", \"text\": \"ignored\"}\n{\"text\": \"only text\"}\n";
         let outcome = run_json_lines(bytes, &options);

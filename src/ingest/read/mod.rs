@@ -22,6 +22,16 @@
 //! - The input `-` is standard input, read as JSON Lines (as CSV with the CSV
 //!   format, as one text document with the text format).
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 mod csv_table;
 mod folder;
 mod json_lines;
@@ -29,7 +39,7 @@ mod origin;
 
 use std::collections::HashSet;
 use std::fs;
-use std::io::{self, BufRead, BufReader};
+use std::io::{self, BufRead, BufReader, Read};
 use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
@@ -50,6 +60,12 @@ const BYTE_ORDER_MARK: &[u8] = b"\xEF\xBB\xBF";
 
 /// Starting capacity of the reused JSON Lines buffer and of file readers.
 const READ_BUFFER_BYTES: usize = 64 * 1024;
+
+/// The longest document read by default, in bytes (a text file, a JSON
+/// line or a CSV record): 32 MiB, some thirty times a long novel. A longer
+/// one is skipped with a diagnostic, so that one runaway record cannot
+/// exhaust memory.
+pub const DEFAULT_MAX_DOCUMENT_BYTES: usize = 32 * 1024 * 1024;
 
 /// The field or column holding a document's text when none is named.
 pub const DEFAULT_TEXT_FIELD: &str = "text";
@@ -130,6 +146,11 @@ pub struct ReadOptions {
     /// Optional fields the user named (rather than left at their
     /// defaults): a warning says so when no record of any input has one.
     pub named_fields: Vec<NamedField>,
+    /// The longest document read, in bytes of its file, JSON line or CSV
+    /// record; a longer one is skipped with a [`DiagnosticKind::TooLong`]
+    /// diagnostic. A JSON line or text file is never held beyond this; a
+    /// CSV record is held whole by the CSV parser before it is measured.
+    pub max_document_bytes: usize,
 }
 
 impl Default for ReadOptions {
@@ -142,6 +163,7 @@ impl Default for ReadOptions {
             date_field: DEFAULT_DATE_FIELD.into(),
             unique_ids: true,
             named_fields: Vec::new(),
+            max_document_bytes: DEFAULT_MAX_DOCUMENT_BYTES,
         }
     }
 }
@@ -262,6 +284,23 @@ pub fn read_documents(
 ) -> Result<ReadCounts, ReadError> {
     let mut open_stdin = || -> Box<dyn BufRead> { Box::new(io::stdin().lock()) };
     read_documents_from(inputs, options, diagnostics, warnings, sink, &mut open_stdin)
+}
+
+/// Reads one stream the way standard input is read: in `options.format`
+/// (JSON Lines for [`InputFormat::Auto`], one text document for
+/// [`InputFormat::Text`]), named [`STDIN_ORIGIN`] in origins. The fuzz
+/// targets and tests feed it bytes.
+pub fn read_stream(
+    reader: Box<dyn BufRead>,
+    options: &ReadOptions,
+    diagnostics: &mut Vec<Diagnostic>,
+    warnings: &mut Vec<String>,
+    sink: &mut dyn FnMut(RawDocument),
+) -> Result<ReadCounts, ReadError> {
+    let mut reader = Some(reader);
+    let mut open_stdin = || -> Box<dyn BufRead> { reader.take().unwrap_or_else(|| Box::new(io::empty())) };
+    let inputs = [PathBuf::from(STDIN_ARGUMENT)];
+    read_documents_from(&inputs, options, diagnostics, warnings, sink, &mut open_stdin)
 }
 
 /// [`read_documents`] with the source of standard input passed in.
@@ -434,6 +473,19 @@ impl Collector<'_> {
         });
     }
 
+    /// Skips a document longer than `limit` bytes.
+    fn skip_too_long(&mut self, file: String, line: Option<u64>, document: Option<String>, limit: usize) {
+        let what = match (&document, line) {
+            (Some(id), _) => format!("document `{id}`"),
+            (None, Some(_)) => "the record on this line".to_string(),
+            (None, None) => "the document".to_string(),
+        };
+        let message = format!(
+            "{what} is longer than {limit} bytes and is skipped; raise --max-document-bytes (max_document_bytes in [input]) to read it, or split it"
+        );
+        self.skip(DiagnosticKind::TooLong, Origin { file, line }, document, message);
+    }
+
     /// Hands `document` to the sink unless it is empty or its id was used before.
     fn offer(&mut self, document: RawDocument) {
         if document.text.trim().is_empty() {
@@ -477,8 +529,9 @@ fn read_file(
     let origin_name = path.display().to_string();
     if kind == FileKind::Text {
         collector.counts.records_seen += 1;
-        match fs::read(path) {
-            Ok(bytes) => offer_text(bytes, id, origin_name, collector),
+        match fs::File::open(path).and_then(|file| read_capped(file, options.max_document_bytes)) {
+            Ok(Some(bytes)) => offer_text(bytes, id, origin_name, collector),
+            Ok(None) => collector.skip_too_long(origin_name, None, Some(id), options.max_document_bytes),
             Err(error) => collector.skip(
                 DiagnosticKind::Unreadable,
                 Origin {
@@ -515,6 +568,15 @@ fn read_file(
     }
 }
 
+/// Reads `reader` to its end when it holds at most `limit` bytes; `None`
+/// (after reading `limit + 1` bytes, no more) when it holds more.
+fn read_capped(reader: impl io::Read, limit: usize) -> io::Result<Option<Vec<u8>>> {
+    let mut bytes = Vec::new();
+    let cap = u64::try_from(limit).unwrap_or(u64::MAX).saturating_add(1);
+    reader.take(cap).read_to_end(&mut bytes)?;
+    Ok((bytes.len() <= limit).then_some(bytes))
+}
+
 /// Reads standard input in the format asked for (JSON Lines by default).
 fn read_stdin(
     mut reader: Box<dyn BufRead>,
@@ -525,18 +587,17 @@ fn read_stdin(
         InputFormat::Auto | InputFormat::Jsonl => read_json_lines(reader, STDIN_ORIGIN, options, collector),
         InputFormat::Csv => read_csv(reader, STDIN_ORIGIN, options, collector),
         InputFormat::Text => {
-            let mut bytes = Vec::new();
-            reader.read_to_end(&mut bytes).map_err(|source| ReadError::Io {
-                path: PathBuf::from(STDIN_ORIGIN),
-                source,
-            })?;
+            let bytes =
+                read_capped(&mut reader, options.max_document_bytes).map_err(|source| ReadError::Io {
+                    path: PathBuf::from(STDIN_ORIGIN),
+                    source,
+                })?;
             collector.counts.records_seen += 1;
-            offer_text(
-                bytes,
-                STDIN_ORIGIN.to_string(),
-                STDIN_ORIGIN.to_string(),
-                collector,
-            );
+            let name = STDIN_ORIGIN.to_string();
+            match bytes {
+                Some(bytes) => offer_text(bytes, name.clone(), name, collector),
+                None => collector.skip_too_long(name.clone(), None, Some(name), options.max_document_bytes),
+            }
             Ok(())
         }
     }

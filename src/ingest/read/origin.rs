@@ -39,6 +39,9 @@ pub enum DiagnosticKind {
     DuplicateId,
     /// The document has no tokens left (reported by the corpus builder).
     NoTokens,
+    /// The document (its file, JSON line or CSV record) is longer than the
+    /// limit of `max_document_bytes`.
+    TooLong,
 }
 
 /// A skipped document or unusable record.
@@ -73,6 +76,7 @@ mod tests {
             DiagnosticKind::BadRecord,
             DiagnosticKind::DuplicateId,
             DiagnosticKind::NoTokens,
+            DiagnosticKind::TooLong,
         ]
         .iter()
         .map(|kind| serde_json::to_string(kind).expect("serialize kind"))
@@ -86,7 +90,8 @@ mod tests {
                 "\"empty\"",
                 "\"bad_record\"",
                 "\"duplicate_id\"",
-                "\"no_tokens\""
+                "\"no_tokens\"",
+                "\"too_long\""
             ]
         );
     }

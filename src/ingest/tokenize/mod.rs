@@ -5,6 +5,16 @@
 //! length bounds, stopwords, stemming) and the resolution of stopword specs
 //! (`none`, a language name or code, or a file) into a word list.
 
+#![cfg_attr(
+    not(test),
+    deny(
+        clippy::unwrap_used,
+        clippy::expect_used,
+        clippy::indexing_slicing,
+        clippy::panic
+    )
+)]
+
 mod english;
 mod filters;
 mod languages;

@@ -1,0 +1,6 @@
+//! Fuzz target `names_file`: see `themata::testbed::fuzz_checks::names_file`.
+#![no_main]
+
+use libfuzzer_sys::fuzz_target;
+
+fuzz_target!(|bytes: &[u8]| themata_fuzz::fuzz_checks::names_file(bytes));
