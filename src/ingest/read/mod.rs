@@ -334,6 +334,33 @@ fn read_documents_from(
     Ok(collector.counts)
 }
 
+/// Hands documents already in memory (for example a list of texts from a
+/// caller of the library) to `sink` under the same rules as files: a
+/// document whose text is empty or only whitespace is skipped, and so is one
+/// whose id an earlier one had (when `options.unique_ids` is on). Every
+/// document counts as one record seen.
+pub fn offer_documents(
+    documents: impl IntoIterator<Item = RawDocument>,
+    options: &ReadOptions,
+    diagnostics: &mut Vec<Diagnostic>,
+    sink: &mut dyn FnMut(RawDocument),
+) -> ReadCounts {
+    let mut collector = Collector {
+        diagnostics,
+        sink,
+        seen_ids: HashSet::new(),
+        unique_ids: options.unique_ids,
+        counts: ReadCounts::default(),
+        named_found: Vec::new(),
+        records_read: false,
+    };
+    for document in documents {
+        collector.counts.records_seen += 1;
+        collector.offer(document);
+    }
+    collector.counts
+}
+
 /// How a file's content is laid out.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 enum FileKind {
