@@ -3,9 +3,10 @@
 # installs it in a fresh virtual environment, runs its tests against the
 # command line built from the same checkout.
 #
-# Runtime: about 3 to 5 minutes on two cores (the extension's release build
-# shares target/ with the command line's; clippy of the binding crate; the
-# pytest run itself takes about half a minute). Called by one line of .ci/run.
+# Runtime: about 6 minutes measured on two busy shared cores (pip installing
+# numpy, pandas and maturin; clippy of the binding crate, about 2 minutes;
+# the extension's release build, which reuses the engine already built in
+# target/; pytest itself about 12 seconds). Called by one line of .ci/run.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 

@@ -699,7 +699,7 @@ fn fit_corpus(
     learn_every: Option<i64>,
     samples: Option<i64>,
     lag: Option<i64>,
-    seed: Option<u64>,
+    seed: Option<&Bound<'_, PyAny>>,
     threads: Option<i64>,
     trace_every: Option<i64>,
     sampler: Option<String>,
@@ -726,6 +726,17 @@ fn fit_corpus(
             })
             .transpose()
     };
+    let seed = seed
+        .map(|value| {
+            value.extract::<u64>().map_err(|_| {
+                let shown = value.str().map(|text| text.to_string()).unwrap_or_default();
+                let message = settings::ANY_WHOLE.parser::<u64>()(&shown)
+                    .err()
+                    .unwrap_or_else(|| format!("`{shown}` is not a whole number"));
+                PyValueError::new_err(format!("seed: {message}"))
+            })
+        })
+        .transpose()?;
     let sampler = sampler
         .map(|name| {
             serde_json::from_value::<SamplerChoice>(serde_json::Value::String(name.clone())).map_err(|_| {

@@ -228,6 +228,7 @@ def test_texts_lists_pairs_and_frames_build_the_command_lines_corpus(tmp_path: P
         assert corpus.n_tokens == cli_corpus.n_tokens
 
     same(themata.build_corpus(list(zip(ids, texts)), labels=themes, **keywords))
+    same(themata.build_corpus(dict(zip(ids, texts)), **keywords))
     pd = pytest.importorskip("pandas")
     frame = pd.DataFrame(records)
     from_frame = themata.build_corpus(frame, text_column="text", id_column="id", label_column="theme", **keywords)
@@ -301,6 +302,8 @@ def test_bad_input_raises_clear_python_exceptions(tmp_path: Path, demo_corpus: P
         themata.fit(corpus, topics=2.5)
     with pytest.raises(ValueError, match="sampler"):
         themata.fit(corpus, topics=3, sampler="fastest")
+    with pytest.raises(ValueError, match="seed: `-1` is not a whole number"):
+        themata.fit(corpus, topics=3, seed=-1)
     with pytest.raises(ValueError, match="fit needs a themata.Corpus"):
         themata.fit(["a list"], topics=3)
 

@@ -34,6 +34,7 @@ import operator
 import os
 import sys
 import warnings
+from collections.abc import Mapping
 from typing import Any, Callable, Optional, Sequence, Union
 
 import numpy as np
@@ -136,6 +137,12 @@ def _documents_from(
         return ids, texts, None, None
     if isinstance(documents, (str, bytes)):
         raise ValueError("pass a list of texts or of (id, text) pairs, not one string; to read files, pass paths=[...]")
+    if isinstance(documents, Mapping):
+        ids = [str(key) for key in documents]
+        texts = [_text(value, ids[position]) for position, value in enumerate(documents.values())]
+        if not ids:
+            raise ValueError("no documents given: the mapping is empty")
+        return ids, texts, None, None
     try:
         items = list(documents)
     except TypeError:
@@ -167,7 +174,8 @@ def build_corpus(
     """Builds a corpus with the tokenizer and vocabulary rules of ``themata build``.
 
     ``documents`` is a list of texts (ids ``"0"``, ``"1"``, ...), a list of
-    ``(id, text)`` pairs, a pandas Series of texts (ids from its index), or
+    ``(id, text)`` pairs, a dict from id to text, a pandas Series of texts
+    (ids from its index), or
     a pandas DataFrame with ``text_column`` (and optionally ``id_column``,
     ``label_column`` and ``date_column``; ids otherwise from its index).
     ``labels`` and ``dates`` give one label or date (ISO 8601) per text for
