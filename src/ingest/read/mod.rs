@@ -280,15 +280,7 @@ fn read_documents_from(
         .iter()
         .map(|path| plan_input(path, options.format))
         .collect::<Result<Vec<_>, _>>()?;
-    let mut collector = Collector {
-        diagnostics,
-        sink,
-        seen_ids: HashSet::new(),
-        unique_ids: options.unique_ids,
-        counts: ReadCounts::default(),
-        named_found: vec![false; options.named_fields.len()],
-        records_read: false,
-    };
+    let mut collector = Collector::new(options, diagnostics, sink);
     for plan in plans {
         match plan {
             InputPlan::Stdin => read_stdin(open_stdin(), options, &mut collector)?,
@@ -345,15 +337,7 @@ pub fn offer_documents(
     diagnostics: &mut Vec<Diagnostic>,
     sink: &mut dyn FnMut(RawDocument),
 ) -> ReadCounts {
-    let mut collector = Collector {
-        diagnostics,
-        sink,
-        seen_ids: HashSet::new(),
-        unique_ids: options.unique_ids,
-        counts: ReadCounts::default(),
-        named_found: Vec::new(),
-        records_read: false,
-    };
+    let mut collector = Collector::new(options, diagnostics, sink);
     for document in documents {
         collector.counts.records_seen += 1;
         collector.offer(document);
@@ -439,7 +423,24 @@ struct Collector<'a> {
     records_read: bool,
 }
 
-impl Collector<'_> {
+impl<'a> Collector<'a> {
+    /// A collector for one call with `options`, empty.
+    fn new(
+        options: &ReadOptions,
+        diagnostics: &'a mut Vec<Diagnostic>,
+        sink: &'a mut dyn FnMut(RawDocument),
+    ) -> Collector<'a> {
+        Collector {
+            diagnostics,
+            sink,
+            seen_ids: HashSet::new(),
+            unique_ids: options.unique_ids,
+            counts: ReadCounts::default(),
+            named_found: vec![false; options.named_fields.len()],
+            records_read: false,
+        }
+    }
+
     /// Notes the fields a record (or a CSV header) has.
     fn note_fields(&mut self, options: &ReadOptions, mut has: impl FnMut(&str) -> bool) {
         self.records_read = true;
@@ -659,15 +660,7 @@ mod test_support {
         let mut documents = Vec::new();
         let mut diagnostics = Vec::new();
         let mut sink = |document| documents.push(document);
-        let mut collector = Collector {
-            diagnostics: &mut diagnostics,
-            sink: &mut sink,
-            seen_ids: HashSet::new(),
-            unique_ids: options.unique_ids,
-            counts: ReadCounts::default(),
-            named_found: vec![false; options.named_fields.len()],
-            records_read: false,
-        };
+        let mut collector = Collector::new(options, &mut diagnostics, &mut sink);
         let result = read_json_lines(Cursor::new(bytes), "mem.jsonl", options, &mut collector)
             .map(|()| collector.counts);
         Outcome {
