@@ -1069,8 +1069,9 @@ pub struct RunConfig {
 }
 
 /// A config-file error message with the Rust type names the TOML reader
-/// puts in it (`expected usize`) said in words.
-fn plain_type_names(message: &str) -> String {
+/// puts in it (`expected usize`) said in words (also used for the Python
+/// package's keyword options).
+pub fn plain_type_names(message: &str) -> String {
     const NAMES: [(&str, &str); 10] = [
         ("usize", "a whole number (0 or more)"),
         ("u64", "a whole number (0 or more)"),

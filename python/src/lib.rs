@@ -5,12 +5,19 @@
 //! interpreter released, on the same rayon pools, and a fit checks for
 //! Ctrl-C between sweeps.
 
+mod build;
+
 use std::ops::ControlFlow;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::Duration;
+
+/// How often a fit's calling thread checks for Ctrl-C.
+const SIGNAL_POLL: Duration = Duration::from_millis(20);
 use std::path::PathBuf;
 
 use numpy::ndarray::Array2;
 use numpy::{IntoPyArray, PyArray2};
-use pyo3::exceptions::{PyKeyboardInterrupt, PyOSError, PyValueError};
+use pyo3::exceptions::{PyFileNotFoundError, PyKeyboardInterrupt, PyOSError, PyValueError};
 use pyo3::prelude::*;
 
 use themata::evaluate::coherence::CoherenceSettings;
@@ -20,12 +27,16 @@ use themata::evaluate::uncertainty::DEFAULT_LEVEL;
 use themata::fitting::fit::{self, FitEvent, PriorSpec};
 use themata::fitting::schedule::SamplerChoice;
 use themata::fitting::warm;
-use themata::ingest::corpus::Corpus;
+use themata::ingest::corpus::{BuildSummary, Corpus, CorpusError};
+use themata::ingest::read::ReadError;
 use themata::ingest::tokenize::Tokenizer;
 use themata::model::Model;
 use themata::model::corpus_file;
 use themata::model::folder;
+use themata::model::format::{FormatError, write_atomic};
 use themata::model::summary::FitSummary;
+use themata::publish::side_files::{FolderContext, model_title};
+use themata::report::html::{self, ReportContext};
 use themata::settings::{self, FitOptions, StartFrom};
 
 /// The message chain of an error, once, as the command line prints it.
@@ -44,7 +55,7 @@ fn describe(error: &dyn std::error::Error) -> String {
 }
 
 /// A `ValueError` for bad input, with the command line's message.
-fn bad_input(error: impl std::error::Error) -> PyErr {
+pub(crate) fn bad_input(error: impl std::error::Error) -> PyErr {
     PyValueError::new_err(describe(&error))
 }
 
@@ -53,20 +64,35 @@ fn system(error: impl std::error::Error) -> PyErr {
     PyOSError::new_err(describe(&error))
 }
 
-/// `ValueError` for errors about the content of files, `OSError` for I/O.
-fn file_error(error: themata::model::format::FormatError) -> PyErr {
-    if error.is_bad_input() {
-        bad_input(error)
-    } else {
-        system(error)
+/// `FileNotFoundError` for a missing file (Python's own habit), `ValueError`
+/// for errors about the content of files, `OSError` for other I/O.
+fn file_error(error: FormatError) -> PyErr {
+    match &error {
+        FormatError::Missing { .. } => PyFileNotFoundError::new_err(describe(&error)),
+        _ if error.is_bad_input() => bad_input(error),
+        _ => system(error),
     }
 }
 
 fn folder_error(error: folder::FolderError) -> PyErr {
-    if error.is_bad_input() {
-        bad_input(error)
-    } else {
-        system(error)
+    match error {
+        folder::FolderError::NoModel { ref dir } if !dir.exists() => {
+            PyFileNotFoundError::new_err(describe(&error))
+        }
+        folder::FolderError::File(error) => file_error(error),
+        other => bad_input(other),
+    }
+}
+
+/// The exception of a failed build, as the command line classifies it: a
+/// missing input is `FileNotFoundError`, a stream that breaks part way
+/// `OSError`, everything else (options, formats, a corpus left empty)
+/// `ValueError`.
+pub(crate) fn corpus_error(error: CorpusError) -> PyErr {
+    match &error {
+        CorpusError::Read(ReadError::Missing { .. }) => PyFileNotFoundError::new_err(describe(&error)),
+        CorpusError::Read(ReadError::Io { .. }) => system(error),
+        _ => bad_input(error),
     }
 }
 
@@ -74,6 +100,9 @@ fn folder_error(error: folder::FolderError) -> PyErr {
 #[pyclass(module = "themata._native", name = "Corpus", frozen)]
 pub struct PyCorpus {
     pub(crate) inner: Corpus,
+    /// What the build read, kept and skipped (None for a corpus loaded
+    /// from a file, which does not keep it).
+    pub(crate) summary: Option<BuildSummary>,
 }
 
 #[pymethods]
@@ -116,6 +145,17 @@ impl PyCorpus {
         self.inner.documents.iter().map(|doc| doc.label.clone()).collect()
     }
 
+    /// What the build read, kept and skipped, as a dict (the shape of a
+    /// run folder's build.json); None for a corpus loaded from a file.
+    #[getter]
+    fn build_summary<'py>(&self, py: Python<'py>) -> PyResult<Option<Bound<'py, PyAny>>> {
+        let Some(summary) = &self.summary else {
+            return Ok(None);
+        };
+        let text = serde_json::to_string(summary).map_err(|err| PyValueError::new_err(err.to_string()))?;
+        Ok(Some(py.import("json")?.call_method1("loads", (text,))?))
+    }
+
     /// The word ids of document `index`.
     fn document_tokens(&self, index: usize) -> PyResult<Vec<u32>> {
         if index >= self.inner.n_docs() {
@@ -153,7 +193,7 @@ fn load_corpus(py: Python<'_>, path: PathBuf) -> PyResult<PyCorpus> {
     let inner = py
         .detach(|| corpus_file::load_corpus(&path))
         .map_err(file_error)?;
-    Ok(PyCorpus { inner })
+    Ok(PyCorpus { inner, summary: None })
 }
 
 /// A fitted topic model.
@@ -164,6 +204,9 @@ pub struct PyModel {
     threads: usize,
     sampling_seconds: f64,
     tokens_per_second: f64,
+    /// The folder it was loaded from, whose side files (names, run record,
+    /// build record, held-out perplexity) its report shows.
+    folder: Option<PathBuf>,
 }
 
 impl PyModel {
@@ -173,7 +216,31 @@ impl PyModel {
             threads: 1,
             sampling_seconds: 0.0,
             tokens_per_second: 0.0,
+            folder: None,
         }
+    }
+
+    /// The report page and where its side files came from.
+    fn render_report(
+        &self,
+        folder: Option<PathBuf>,
+        title: Option<String>,
+        top_words: usize,
+        level: f64,
+    ) -> PyResult<String> {
+        check_level(level)?;
+        if !(1..=200).contains(&top_words) {
+            return Err(PyValueError::new_err(format!(
+                "top_words: must be a whole number from 1 to 200, got {top_words}"
+            )));
+        }
+        let folder = folder.or_else(|| self.folder.clone());
+        let side = folder.as_deref().map(FolderContext::read).unwrap_or_default();
+        let title = title
+            .or_else(|| folder.as_deref().map(model_title))
+            .unwrap_or_else(|| "model".to_string());
+        let context = ReportContext::of_folder(title, &side, top_words, level);
+        html::render(&self.inner, &context).map_err(system)
     }
 
     fn summary_of(&self) -> FitSummary {
@@ -413,22 +480,29 @@ impl PyModel {
                     .enumerate()
                     .map(|(idx, (text, id))| {
                         let doc = score::encode_text(&tokenizer, &model.corpus.vocabulary, id, text);
-                        score::place(
+                        let placement = score::place(
                             model,
                             &weights,
                             &doc,
                             &fold_in,
-                            level,
                             &mut score::document_rng(seed, idx),
-                        )
+                        )?;
+                        let intervals = (0..model.n_topics())
+                            .map(|topic| placement.interval(&model.priors.alpha, topic, level))
+                            .collect::<Result<Vec<_>, _>>()?;
+                        Ok((
+                            placement.document,
+                            placement.tokens,
+                            placement.unknown_tokens,
+                            placement.shares,
+                            intervals.iter().map(|i| i.low).collect(),
+                            intervals.iter().map(|i| i.high).collect(),
+                        ))
                     })
-                    .collect::<Result<Vec<_>, _>>()
+                    .collect::<Result<Vec<PlacementRow>, score::ScoreError>>()
             })
             .map_err(system)?;
-        Ok(placements
-            .into_iter()
-            .map(|p| (p.document, p.tokens, p.unknown_tokens, p.shares, p.low, p.high))
-            .collect())
+        Ok(placements)
     }
 
     /// Held-out perplexity of new texts (document completion, or
@@ -511,6 +585,56 @@ impl PyModel {
         serde_json::to_string(&report).map_err(|err| PyValueError::new_err(err.to_string()))
     }
 
+    /// The HTML report of the model (the page `themata report` writes), as
+    /// a string. Side files (topic names, run record, build record,
+    /// held-out perplexity) come from `folder`, else from the folder the
+    /// model was loaded from.
+    #[pyo3(signature = (folder = None, title = None, top_words = themata::settings::DEFAULT_TOP_WORDS, level = DEFAULT_LEVEL))]
+    fn report_html(
+        &self,
+        py: Python<'_>,
+        folder: Option<PathBuf>,
+        title: Option<String>,
+        top_words: usize,
+        level: f64,
+    ) -> PyResult<String> {
+        py.detach(|| self.render_report(folder, title, top_words, level))
+    }
+
+    /// Writes the HTML report to the file `path` (replaced whole, never
+    /// half-written; its folder must exist).
+    #[pyo3(signature = (path, folder = None, title = None, top_words = themata::settings::DEFAULT_TOP_WORDS, level = DEFAULT_LEVEL))]
+    fn report(
+        &self,
+        py: Python<'_>,
+        path: PathBuf,
+        folder: Option<PathBuf>,
+        title: Option<String>,
+        top_words: usize,
+        level: f64,
+    ) -> PyResult<()> {
+        if path.is_dir() {
+            return Err(PyValueError::new_err(format!(
+                "{}: is a folder; pass the file to write",
+                path.display()
+            )));
+        }
+        let parent = match path.parent() {
+            Some(parent) if !parent.as_os_str().is_empty() => parent,
+            _ => std::path::Path::new("."),
+        };
+        if !parent.is_dir() {
+            return Err(PyFileNotFoundError::new_err(format!(
+                "{}: no such folder; create it first or choose another path",
+                parent.display()
+            )));
+        }
+        py.detach(|| {
+            let page = self.render_report(folder, title, top_words, level)?;
+            write_atomic(&path, page.as_bytes()).map_err(file_error)
+        })
+    }
+
     fn __repr__(&self) -> String {
         format!(
             "<themata.Model: {} topics, {} documents, {} words, {} sweeps>",
@@ -526,7 +650,10 @@ impl PyModel {
 #[pyfunction]
 fn load_model(py: Python<'_>, folder: PathBuf) -> PyResult<PyModel> {
     let inner = py.detach(|| folder::load_model(&folder)).map_err(folder_error)?;
-    Ok(PyModel::wrap(inner))
+    Ok(PyModel {
+        folder: Some(folder),
+        ..PyModel::wrap(inner)
+    })
 }
 
 /// A prior option from Python: "learn", a number, or a list of numbers.
@@ -572,7 +699,7 @@ fn fit_corpus(
     learn_every: Option<i64>,
     samples: Option<i64>,
     lag: Option<i64>,
-    seed: Option<u64>,
+    seed: Option<&Bound<'_, PyAny>>,
     threads: Option<i64>,
     trace_every: Option<i64>,
     sampler: Option<String>,
@@ -580,18 +707,36 @@ fn fit_corpus(
     start_from: Option<&PyModel>,
     progress: Option<Bound<'_, PyAny>>,
 ) -> PyResult<PyModel> {
-    // Negative counts are refused with the same words as out-of-range ones.
+    // Negative counts are refused with the command line's words for them
+    // (its value parser's); the rest is checked when the options resolve.
     let count = |name: &str, value: Option<i64>| -> PyResult<Option<u64>> {
         value
             .map(|value| {
                 u64::try_from(value).map_err(|_| {
-                    PyValueError::new_err(format!(
-                        "{name}: must be a whole number of at least 0, got {value}"
-                    ))
+                    let range = if name == "topics" {
+                        settings::TOPICS
+                    } else {
+                        settings::ANY_WHOLE
+                    };
+                    let message = range.parser::<u64>()(&value.to_string())
+                        .err()
+                        .unwrap_or_else(|| format!("`{value}` is not a whole number"));
+                    PyValueError::new_err(format!("{name}: {message}"))
                 })
             })
             .transpose()
     };
+    let seed = seed
+        .map(|value| {
+            value.extract::<u64>().map_err(|_| {
+                let shown = value.str().map(|text| text.to_string()).unwrap_or_default();
+                let message = settings::ANY_WHOLE.parser::<u64>()(&shown)
+                    .err()
+                    .unwrap_or_else(|| format!("`{shown}` is not a whole number"));
+                PyValueError::new_err(format!("seed: {message}"))
+            })
+        })
+        .transpose()?;
     let sampler = sampler
         .map(|name| {
             serde_json::from_value::<SamplerChoice>(serde_json::Value::String(name.clone())).map_err(|_| {
@@ -629,49 +774,77 @@ fn fit_corpus(
         None => fit::start(corpus, &plan.settings).map_err(bad_input)?,
     };
     let pool = themata::thread_pool(plan.threads).map_err(system)?;
-    let mut interrupted = false;
-    let mut callback_error: Option<PyErr> = None;
     let progress = progress.map(Bound::unbind);
-    let timing = py.detach(|| {
-        pool.install(|| {
-            let last = std::cell::Cell::new((0u64, 0u64, None::<f64>));
-            fit::run_to_target(
-                &mut model,
-                &mut |event| {
-                    let FitEvent::Sweep {
-                        done,
-                        total,
-                        log_likelihood,
-                    } = event;
-                    last.set((done, total, log_likelihood));
-                },
-                &mut |_| {
-                    Python::attach(|py| {
-                        if let Err(err) = py.check_signals() {
-                            interrupted = err.is_instance_of::<PyKeyboardInterrupt>(py);
-                            callback_error = Some(err);
-                            return ControlFlow::Break(());
-                        }
-                        if let Some(callback) = &progress {
-                            let (done, total, log_likelihood) = last.get();
-                            if let Err(err) = callback.call1(py, (done, total, log_likelihood)) {
-                                callback_error = Some(err);
+    // Python runs signal handlers on its main thread only, and rayon runs
+    // the fit on a worker: so the fit runs on a thread of its own while
+    // this (the calling) thread, with the interpreter released, checks for
+    // signals every few milliseconds and raises the stop flag that the fit
+    // reads after each sweep.
+    let stop = AtomicBool::new(false);
+    let (timing, callback_error, signal_error) = py.detach(|| {
+        std::thread::scope(|scope| {
+            let fitting = scope.spawn(|| {
+                let mut callback_error: Option<PyErr> = None;
+                let timing = pool.install(|| {
+                    let last = std::cell::Cell::new((0u64, 0u64, None::<f64>));
+                    fit::run_to_target(
+                        &mut model,
+                        &mut |event| {
+                            let FitEvent::Sweep {
+                                done,
+                                total,
+                                log_likelihood,
+                            } = event;
+                            last.set((done, total, log_likelihood));
+                        },
+                        &mut |_| {
+                            if stop.load(Ordering::SeqCst) {
                                 return ControlFlow::Break(());
                             }
-                        }
-                        ControlFlow::Continue(())
-                    })
-                },
-            )
+                            let Some(callback) = &progress else {
+                                return ControlFlow::Continue(());
+                            };
+                            Python::attach(|py| {
+                                let (done, total, log_likelihood) = last.get();
+                                match callback.call1(py, (done, total, log_likelihood)) {
+                                    Ok(_) => ControlFlow::Continue(()),
+                                    Err(err) => {
+                                        callback_error = Some(err);
+                                        ControlFlow::Break(())
+                                    }
+                                }
+                            })
+                        },
+                    )
+                });
+                (timing, callback_error)
+            });
+            let mut signal_error: Option<PyErr> = None;
+            while !fitting.is_finished() {
+                std::thread::sleep(SIGNAL_POLL);
+                if signal_error.is_none()
+                    && let Err(err) = Python::attach(|py| py.check_signals())
+                {
+                    signal_error = Some(err);
+                    stop.store(true, Ordering::SeqCst);
+                }
+            }
+            match fitting.join() {
+                Ok((timing, callback_error)) => (timing, callback_error, signal_error),
+                Err(panic) => std::panic::resume_unwind(panic),
+            }
         })
     });
-    if let Some(err) = callback_error {
-        if interrupted {
+    if let Some(err) = signal_error {
+        if err.is_instance_of::<PyKeyboardInterrupt>(py) {
             return Err(PyKeyboardInterrupt::new_err(format!(
                 "the fit was stopped after {} of {} sweeps",
                 model.iterations_done, model.target
             )));
         }
+        return Err(err);
+    }
+    if let Some(err) = callback_error {
         return Err(err);
     }
     let timing = timing.map_err(bad_input)?;
@@ -680,6 +853,7 @@ fn fit_corpus(
         threads: plan.threads,
         sampling_seconds: timing.sampling_seconds,
         tokens_per_second: timing.tokens_per_second(),
+        folder: None,
     })
 }
 
@@ -698,6 +872,8 @@ fn _native(module: &Bound<'_, PyModule>) -> PyResult<()> {
     module.add_function(wrap_pyfunction!(load_corpus, module)?)?;
     module.add_function(wrap_pyfunction!(load_model, module)?)?;
     module.add_function(wrap_pyfunction!(fit_corpus, module)?)?;
+    module.add_function(wrap_pyfunction!(build::build_corpus_from_texts, module)?)?;
+    module.add_function(wrap_pyfunction!(build::build_corpus_from_paths, module)?)?;
     module.add_function(wrap_pyfunction!(resolve_threads, module)?)?;
     module.add("__version__", env!("CARGO_PKG_VERSION"))?;
     Ok(())

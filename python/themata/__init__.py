@@ -16,24 +16,35 @@ Topic models describe collections. They are no basis for decisions about
 individual people: a document's topic shares summarise word co-occurrence,
 not what its author meant, believes or did.
 
-Errors raise ``ValueError`` for bad input (with the command line's
-message) and ``OSError`` for failures of the system.
+Errors carry the command line's messages: ``ValueError`` for bad input
+(a bad option value, a damaged file, a corpus left empty),
+``TypeError`` for an unknown keyword, ``FileNotFoundError`` for a missing
+file or folder, ``OSError`` for other failures of the system.
+
+The heavy work runs with the interpreter released, on as many threads as
+``threads`` says (default: every core); Ctrl-C stops a fit after the
+sweep under way.
 """
 
 from __future__ import annotations
 
 import html
 import json
+import operator
 import os
 import sys
-from typing import Any, Callable, Iterable, Optional, Sequence, Union
+import warnings
+from collections.abc import Mapping
+from typing import Any, Callable, Optional, Sequence, Union
 
 import numpy as np
 
 from . import _native
 
 __all__ = [
+    "BuildWarning",
     "Corpus",
+    "DocumentTypeError",
     "Model",
     "build_corpus",
     "load_corpus",
@@ -54,41 +65,98 @@ def load_corpus(path: PathLike) -> Corpus:
     return _native.load_corpus(os.fspath(path))
 
 
-def _pairs_from(documents: Any) -> tuple[list[str], list[str], Optional[list[Optional[str]]]]:
-    """(ids, texts, labels) from the document shapes `build_corpus` takes."""
-    module = type(documents).__module__
-    if module.startswith("pandas"):
-        import pandas as pd  # only when the caller already uses pandas
+class DocumentTypeError(TypeError, ValueError):
+    """A document that is not a string (a number, bytes, a missing value...).
 
-        if isinstance(documents, pd.Series):
-            ids = [str(index) for index in documents.index]
-            texts = [_text(value, ids[position]) for position, value in enumerate(documents.tolist())]
-            return ids, texts, None
-        raise ValueError(
-            "pass a pandas Series (a text column, e.g. frame[\"text\"]), or a DataFrame "
-            "with text_column= (and optionally id_column=, label_column=)"
+    Both a ``TypeError`` (Python's habit for a value of the wrong type) and a
+    ``ValueError`` (the package's exception for bad input), so either
+    ``except`` catches it.
+    """
+
+
+class BuildWarning(UserWarning):
+    """Something a build says once: skipped documents, a field no record
+    has, a document holding a large share of all tokens (the command line's
+    warnings, word for word)."""
+
+
+def _text(value: Any, document: str) -> str:
+    if not isinstance(value, str):
+        hint = " (a missing value? drop it first, e.g. with .dropna())" if _missing(value) else ""
+        raise DocumentTypeError(
+            f"document `{document}` is a {type(value).__name__}, not a string{hint}; pass texts"
         )
+    return value
+
+
+def _missing(value: Any) -> bool:
+    return value is None or (isinstance(value, float) and value != value)
+
+
+def _metadata(value: Any) -> Optional[str]:
+    """A label or date cell as text (None when missing); dates in ISO 8601."""
+    if _missing(value) or (type(value).__name__ == "NaTType"):
+        return None
+    if hasattr(value, "isoformat"):
+        return value.isoformat()
+    return str(value)
+
+
+def _documents_from(
+    documents: Any,
+    text_column: Optional[str],
+    id_column: Optional[str],
+    label_column: Optional[str],
+    date_column: Optional[str],
+) -> tuple[list[str], list[str], Optional[list[Optional[str]]], Optional[list[Optional[str]]]]:
+    """(ids, texts, labels, dates) from the document shapes `build_corpus` takes."""
+    module = type(documents).__module__
+    if module.startswith("pandas") and hasattr(documents, "columns"):
+        if text_column is None:
+            raise ValueError("a DataFrame needs text_column= (the column holding the texts)")
+        for column in (text_column, id_column, label_column, date_column):
+            if column is not None and column not in documents.columns:
+                raise ValueError(
+                    f"the DataFrame has no column `{column}` (columns: {', '.join(map(str, documents.columns))})"
+                )
+        ids = (
+            [str(value) for value in documents[id_column].tolist()]
+            if id_column is not None
+            else [str(index) for index in documents.index]
+        )
+        texts = [_text(value, ids[position]) for position, value in enumerate(documents[text_column].tolist())]
+        labels = None if label_column is None else [_metadata(v) for v in documents[label_column].tolist()]
+        dates = None if date_column is None else [_metadata(v) for v in documents[date_column].tolist()]
+        return ids, texts, labels, dates
+    for name, column in (("text_column", text_column), ("id_column", id_column), ("label_column", label_column), ("date_column", date_column)):
+        if column is not None:
+            raise ValueError(f"{name}= applies to a pandas DataFrame only")
+    if module.startswith("pandas") and hasattr(documents, "index"):
+        ids = [str(index) for index in documents.index]
+        texts = [_text(value, ids[position]) for position, value in enumerate(documents.tolist())]
+        return ids, texts, None, None
     if isinstance(documents, (str, bytes)):
-        raise ValueError(
-            "pass a list of texts or of (id, text) pairs; to read files, pass paths=[...]"
-        )
-    items = list(documents)
+        raise ValueError("pass a list of texts or of (id, text) pairs, not one string; to read files, pass paths=[...]")
+    if isinstance(documents, Mapping):
+        ids = [str(key) for key in documents]
+        texts = [_text(value, ids[position]) for position, value in enumerate(documents.values())]
+        if not ids:
+            raise ValueError("no documents given: the mapping is empty")
+        return ids, texts, None, None
+    try:
+        items = list(documents)
+    except TypeError:
+        raise DocumentTypeError(
+            f"documents must be a list of texts, of (id, text) pairs, or a pandas Series or DataFrame, not a {type(documents).__name__}"
+        ) from None
     if not items:
         raise ValueError("no documents given: the list is empty")
     if all(isinstance(item, tuple) and len(item) == 2 for item in items):
         ids = [str(item[0]) for item in items]
         texts = [_text(item[1], ids[position]) for position, item in enumerate(items)]
-        return ids, texts, None
+        return ids, texts, None, None
     ids = [str(position) for position in range(len(items))]
-    return ids, [_text(item, ids[position]) for position, item in enumerate(items)], None
-
-
-def _text(value: Any, document: str) -> str:
-    if not isinstance(value, str):
-        raise ValueError(
-            f"document `{document}` is a {type(value).__name__}, not a string; pass texts"
-        )
-    return value
+    return ids, [_text(item, ids[position]) for position, item in enumerate(items)], None, None
 
 
 def build_corpus(
@@ -98,100 +166,140 @@ def build_corpus(
     text_column: Optional[str] = None,
     id_column: Optional[str] = None,
     label_column: Optional[str] = None,
+    date_column: Optional[str] = None,
     labels: Optional[Sequence[Optional[str]]] = None,
+    dates: Optional[Sequence[Any]] = None,
     **options: Any,
 ) -> Corpus:
     """Builds a corpus with the tokenizer and vocabulary rules of ``themata build``.
 
-    ``documents`` is a list of texts, a list of ``(id, text)`` pairs, a pandas
-    Series of texts (ids from its index), or a pandas DataFrame with
-    ``text_column`` (and optionally ``id_column`` and ``label_column``).
-    Or pass ``paths``: the files and folders the command line reads (text
-    files, JSON Lines, CSV), with the same input options.
+    ``documents`` is a list of texts (ids ``"0"``, ``"1"``, ...), a list of
+    ``(id, text)`` pairs, a dict from id to text, a pandas Series of texts
+    (ids from its index), or
+    a pandas DataFrame with ``text_column`` (and optionally ``id_column``,
+    ``label_column`` and ``date_column``; ids otherwise from its index).
+    ``labels`` and ``dates`` give one label or date (ISO 8601) per text for
+    the other shapes. Or pass ``paths``: the files and folders the command
+    line reads (text files, JSON Lines, CSV), with its input options.
 
-    Options are the command line's, with dashes as underscores: tokenizer
-    (``stopwords``, ``min_length``, ``max_length``, ``keep_numbers``,
-    ``keep_case``, ``stem``), vocabulary (``min_docs``, ``max_doc_share``,
-    ``max_words``, ``keep_words``, ``drop_words``) and, with ``paths``, input
-    options (``format``, ``text_field``, ``id_field``, ``label_field``,
-    ``date_field``). Documents left with no word after tokenizing are
-    skipped, as by the command line.
+    Options are the command line's, with dashes as underscores, and the
+    same defaults and checks: tokenizer (``stopwords``, ``min_length``,
+    ``max_length``, ``keep_numbers``, ``keep_case``, ``stem``), vocabulary
+    (``min_docs``, ``max_doc_share``, ``max_words``, ``keep_words``,
+    ``drop_words``), input (``strict``, ``split_every``, and with ``paths``
+    also ``format``, ``text_field``, ``id_field``, ``label_field``,
+    ``date_field``). An unknown option raises ``TypeError``; a bad value
+    ``ValueError`` with the command line's message; a missing path
+    ``FileNotFoundError``.
+
+    Empty documents, repeated ids and documents left with no word are
+    skipped as by the command line; what was skipped is said once as a
+    ``BuildWarning`` and kept in ``corpus.build_summary``.
     """
     if paths is not None:
         if documents is not None:
             raise ValueError("pass documents or paths=, not both")
-        return _native.build_corpus_from_paths([os.fspath(p) for p in paths], _options(options))
-    if documents is None:
-        raise ValueError("no documents given: pass a list of texts, (id, text) pairs, or paths=[...]")
-    if type(documents).__module__.startswith("pandas") and hasattr(documents, "columns"):
-        if text_column is None:
-            raise ValueError("a DataFrame needs text_column= (the column holding the texts)")
-        for column in (text_column, id_column, label_column):
-            if column is not None and column not in documents.columns:
-                raise ValueError(
-                    f"the DataFrame has no column `{column}` (columns: {', '.join(map(str, documents.columns))})"
-                )
-        texts_series = documents[text_column]
-        ids = (
-            [str(value) for value in documents[id_column].tolist()]
-            if id_column is not None
-            else [str(index) for index in documents.index]
-        )
-        texts = [_text(value, ids[position]) for position, value in enumerate(texts_series.tolist())]
-        if label_column is not None:
-            labels = [None if _missing(value) else str(value) for value in documents[label_column].tolist()]
+        if isinstance(paths, (str, bytes, os.PathLike)):
+            paths = [paths]
+        corpus = _native.build_corpus_from_paths([os.fspath(p) for p in paths], _options(options))
     else:
-        ids, texts, _ = _pairs_from(documents)
-    if labels is not None:
-        labels = list(labels)
-        if len(labels) != len(texts):
-            raise ValueError(f"{len(labels)} labels for {len(texts)} documents; give one label per document")
-    return _native.build_corpus_from_texts(ids, texts, labels, _options(options))
+        if documents is None:
+            raise ValueError("no documents given: pass a list of texts, (id, text) pairs, or paths=[...]")
+        ids, texts, frame_labels, frame_dates = _documents_from(
+            documents, text_column, id_column, label_column, date_column
+        )
+        labels = frame_labels if labels is None else [_metadata(v) for v in labels]
+        dates = frame_dates if dates is None else [_metadata(v) for v in dates]
+        corpus = _native.build_corpus_from_texts(ids, texts, labels, dates, _options(options))
+    _warn_about(corpus.build_summary)
+    return corpus
 
 
-def _missing(value: Any) -> bool:
-    return value is None or (isinstance(value, float) and value != value)
+def _warn_about(summary: Optional[dict[str, Any]]) -> None:
+    """The build's warnings and skipped documents, once each, as BuildWarnings."""
+    if not summary:
+        return
+    for text in summary.get("warnings", []):
+        warnings.warn(text, BuildWarning, stacklevel=3)
+    skipped = summary.get("diagnostics", [])
+    if skipped:
+        reasons = ", ".join(f"{reason} {count}" for reason, count in summary.get("skipped", {}).items())
+        first = skipped[0]
+        warnings.warn(
+            f"{len(skipped)} document(s) skipped ({reasons}); the first: {first['message']} "
+            "(all of them: corpus.build_summary['diagnostics'])",
+            BuildWarning,
+            stacklevel=3,
+        )
 
 
 def _options(options: dict[str, Any]) -> str:
     """Build options as the JSON object the native side reads like a config section."""
-    normalised = {key.replace("-", "_"): value for key, value in options.items()}
-    for key in ("keep_words", "drop_words"):
-        if key in normalised and normalised[key] is not None:
-            normalised[key] = os.fspath(normalised[key])
-    return json.dumps(normalised)
+    normalised: dict[str, Any] = {}
+    for key, value in options.items():
+        if isinstance(value, os.PathLike):
+            value = os.fspath(value)
+        elif isinstance(value, (list, tuple)):
+            value = [os.fspath(v) if isinstance(v, os.PathLike) else v for v in value]
+        normalised[key] = value
+    try:
+        return json.dumps(normalised)
+    except TypeError as error:
+        raise ValueError(f"a build option has a value that is not text, a number, a boolean or a list: {error}") from None
 
 
 ProgressCallback = Callable[[int, int, Optional[float]], Any]
 
 
-def _progress(progress: Union[None, bool, ProgressCallback], total: int) -> tuple[Optional[ProgressCallback], Callable[[], None]]:
-    """The per-sweep callback and a closer for `fit`'s progress option."""
-    if progress is None or progress is False:
+def _tqdm_bar(total: int) -> Optional[tuple[ProgressCallback, Callable[[], None]]]:
+    """A tqdm bar over the sweeps, or None when tqdm is not installed."""
+    try:
+        from tqdm.auto import tqdm  # optional dependency
+    except ImportError:
+        return None
+    bars: list[Any] = []  # made at the first sweep, so a fit refused at once draws none
+
+    def update(done: int, total: int, log_likelihood: Optional[float]) -> None:
+        if not bars:
+            bars.append(tqdm(total=total, unit="sweep", desc="sampling"))
+        bar = bars[0]
+        bar.total = total
+        bar.n = done
+        if log_likelihood is not None:
+            bar.set_postfix(log_likelihood=f"{log_likelihood:.1f}", refresh=False)
+        bar.refresh()
+
+    def close() -> None:
+        for bar in bars:
+            bar.close()
+
+    return update, close
+
+
+def _progress(
+    progress: Union[None, bool, ProgressCallback], total: int
+) -> tuple[Optional[ProgressCallback], Callable[[], None]]:
+    """The per-sweep callback and its closer for `fit`'s progress option:
+    a callable is used as given; None (the default) shows a tqdm bar when
+    tqdm is installed and nothing otherwise; True a tqdm bar, or without
+    tqdm a line on stderr every 5%; False nothing."""
+    if progress is False:
         return None, lambda: None
     if callable(progress):
         return progress, lambda: None
-    try:
-        from tqdm.auto import tqdm  # optional
+    bar = _tqdm_bar(total)
+    if bar is not None:
+        return bar
+    if progress is None:
+        return None, lambda: None
+    step = max(1, total // 20)
 
-        bar = tqdm(total=total, unit="sweep", desc="sampling")
+    def report(done: int, total: int, log_likelihood: Optional[float]) -> None:
+        if done % step == 0 or done == total:
+            extra = f", log-likelihood {log_likelihood:.1f}" if log_likelihood is not None else ""
+            print(f"sampling: {done}/{total} sweeps{extra}", file=sys.stderr)
 
-        def update(done: int, total: int, log_likelihood: Optional[float]) -> None:
-            bar.n = done
-            if log_likelihood is not None:
-                bar.set_postfix(log_likelihood=f"{log_likelihood:.1f}", refresh=False)
-            bar.refresh()
-
-        return update, bar.close
-    except ImportError:
-        step = max(1, total // 20)
-
-        def report(done: int, total: int, log_likelihood: Optional[float]) -> None:
-            if done % step == 0 or done == total:
-                extra = f", log-likelihood {log_likelihood:.1f}" if log_likelihood is not None else ""
-                print(f"sampling: {done}/{total} sweeps{extra}", file=sys.stderr)
-
-        return report, lambda: None
+    return report, lambda: None
 
 
 def fit(
@@ -222,18 +330,24 @@ def fit(
     (the same seed and corpus give the command line's model, bit for bit,
     for any ``threads``). ``samples``/``lag`` keep posterior samples at the
     end that estimates and intervals average over; ``sampler`` is
-    ``"auto"``, ``"exact"``, ``"metropolis"`` or ``"reference"``;
+    ``"auto"``, ``"exact"``, ``"metropolis"``, ``"sparse"`` or ``"reference"``;
     ``start_from`` warm-starts from a previous model with the same K.
 
     ``progress`` is a callable ``(done, total, log_likelihood)`` called after
-    every sweep, or ``True`` for a tqdm bar (when tqdm is installed; else a
-    line on stderr every 5%). Ctrl-C stops the fit between sweeps and
-    raises ``KeyboardInterrupt``.
+    every sweep (``log_likelihood`` is None on sweeps without a trace
+    point); by default a tqdm bar is shown when tqdm is installed (``pip
+    install tqdm``) and nothing otherwise; ``True`` asks for the bar, or
+    without tqdm a line on stderr every 5%; ``False`` shows nothing.
+    Ctrl-C stops the fit between sweeps and raises ``KeyboardInterrupt``.
+
+    Bad values raise ``ValueError`` with the command line's message
+    (``topics`` below 1, ``burn_in`` not below ``iterations``, ...).
     """
     if not isinstance(corpus, Corpus):
         raise ValueError(f"fit needs a themata.Corpus, not a {type(corpus).__name__}")
-    if isinstance(topics, bool) or not isinstance(topics, int):
-        raise ValueError(f"topics must be a whole number, not {topics!r}")
+    if isinstance(topics, bool) or not hasattr(topics, "__index__"):
+        raise ValueError(f"topics: must be a whole number, not {topics!r}")
+    topics = operator.index(topics)
     total = iterations if isinstance(iterations, int) and iterations > 0 else 1000
     callback, close = _progress(progress, total)
     try:
@@ -387,10 +501,11 @@ class Model:
     ) -> list[dict[str, Any]]:
         """Places new texts in the model (the topics held fixed), as ``themata assign``.
 
-        Returns one dict per text: ``document``, ``tokens`` (known to the
-        model), ``unknown_tokens``, and ``shares``, ``low``, ``high`` (numpy
-        arrays of K). A text with no known word gets the prior's shares and
-        ``tokens == 0``.
+        Returns one dict per text: ``document``, ``placed``, ``tokens``
+        (known to the model), ``unknown_tokens``, and ``shares``, ``low``,
+        ``high`` (numpy arrays of K). A text with no known word is not
+        placed (``placed`` False, ``tokens == 0``): its shares are only the
+        prior's.
         """
         if type(texts).__module__.startswith("pandas"):
             ids = [str(index) for index in texts.index] if ids is None else ids
@@ -400,6 +515,7 @@ class Model:
         return [
             {
                 "document": document,
+                "placed": tokens > 0,
                 "tokens": tokens,
                 "unknown_tokens": unknown,
                 "shares": np.asarray(shares),
@@ -422,6 +538,39 @@ class Model:
     def save(self, folder: PathLike) -> None:
         """Writes the command line's model folder (model.bin, summary.json)."""
         self._native.save(os.fspath(folder))
+
+    def report(
+        self,
+        path: PathLike,
+        *,
+        folder: Optional[PathLike] = None,
+        title: Optional[str] = None,
+        top_words: int = 10,
+        level: float = 0.9,
+    ) -> None:
+        """Writes the HTML report to the file ``path``: the page ``themata report`` writes.
+
+        Topic names, the run record, the build record and held-out
+        perplexity are read from ``folder`` (default: the folder the model
+        was loaded from, if any), as the command line reads them beside a
+        model. ``title`` defaults to that folder's name. The file is
+        replaced whole, never left half-written; its folder must exist.
+        """
+        self._native.report(
+            os.fspath(path), None if folder is None else os.fspath(folder), title, top_words, level
+        )
+
+    def report_html(
+        self,
+        *,
+        folder: Optional[PathLike] = None,
+        title: Optional[str] = None,
+        top_words: int = 10,
+        level: float = 0.9,
+    ) -> str:
+        """The HTML report as a string (see ``report``); in a notebook,
+        ``IPython.display.HTML(model.report_html())`` shows it inline."""
+        return self._native.report_html(None if folder is None else os.fspath(folder), title, top_words, level)
 
     def __repr__(self) -> str:
         return repr(self._native)

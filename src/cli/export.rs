@@ -13,7 +13,7 @@ use themata::settings::DEFAULT_TOP_WORDS;
 
 use super::Failure;
 use super::common::parse_level;
-use super::context::{FolderContext, check_out_path};
+use super::context::{check_out_path, read_side_files};
 
 /// Arguments of `themata export`.
 #[derive(clap::Args, Debug)]
@@ -51,7 +51,7 @@ pub fn run(args: ExportArgs) -> Result<(), Failure> {
         check_out_path(out)?;
     }
     let model = load_model(&args.dir)?;
-    let side = FolderContext::read(&args.dir);
+    let side = read_side_files(&args.dir);
     let settings = ExportSettings {
         names: side.names.as_ref(),
         words: args.words,

@@ -10,7 +10,7 @@ use themata::settings::DEFAULT_TOP_WORDS;
 
 use super::Failure;
 use super::common::parse_level;
-use super::context::{FolderContext, check_out_path, model_title};
+use super::context::{check_out_path, model_title, read_side_files};
 
 /// Arguments of `themata report`.
 #[derive(clap::Args, Debug)]
@@ -33,17 +33,8 @@ pub struct ReportArgs {
 pub fn run(args: ReportArgs) -> Result<(), Failure> {
     check_out_path(&args.out)?;
     let model = load_model(&args.dir)?;
-    let side = FolderContext::read(&args.dir);
-    let context = ReportContext {
-        title: model_title(&args.dir),
-        names: side.names.as_ref(),
-        record: side.record.as_ref(),
-        build: side.build.as_ref(),
-        heldout_perplexity: side.heldout_perplexity,
-        top_words: args.words,
-        level: args.interval,
-        warnings: side.warnings.clone(),
-    };
+    let side = read_side_files(&args.dir);
+    let context = ReportContext::of_folder(model_title(&args.dir), &side, args.words, args.interval);
     let page = html::render(&model, &context).map_err(Failure::system)?;
     write_atomic(&args.out, page.as_bytes())?;
     Ok(())

@@ -8,7 +8,9 @@ use std::path::PathBuf;
 
 use serde::{Deserialize, Serialize};
 
-use crate::ingest::read::{self, Diagnostic, DiagnosticKind, Origin, ReadError, ReadOptions};
+use crate::ingest::read::{
+    self, Diagnostic, DiagnosticKind, Origin, RawDocument, ReadCounts, ReadError, ReadOptions,
+};
 use crate::ingest::tokenize::{TokenizeError, Tokenizer, TokenizerSettings};
 use crate::ingest::vocab::{PruneReport, PruneRules, VocabBuilder, Vocabulary};
 
@@ -254,8 +256,50 @@ fn check_token_count(tokens: usize) -> Result<(), CorpusError> {
     Ok(())
 }
 
-/// Reads, tokenizes and prunes the inputs into a corpus.
+/// Reads, tokenizes and prunes the inputs into a corpus (`themata build`).
 pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, BuildSummary), CorpusError> {
+    build_from(settings, &mut |diagnostics, warnings, sink| {
+        read::read_documents(inputs, &settings.read, diagnostics, warnings, sink)
+    })
+}
+
+/// Tokenizes and prunes documents already in memory into a corpus, exactly
+/// as [`build`] does with documents read from files (the same rules for
+/// empty documents and repeated ids, the same tokenizer, pruning, chunking
+/// and warnings). Each document's `origin` becomes its recorded source.
+/// The Python package builds corpora from lists and data frames this way.
+pub fn build_from_documents(
+    documents: Vec<RawDocument>,
+    settings: &BuildSettings,
+) -> Result<(Corpus, BuildSummary), CorpusError> {
+    let mut documents = Some(documents);
+    build_from(settings, &mut |diagnostics, _warnings, sink| {
+        let documents = documents.take().unwrap_or_default();
+        Ok(read::offer_documents(
+            documents,
+            &settings.read,
+            diagnostics,
+            sink,
+        ))
+    })
+}
+
+/// Where [`build_from`] gets its documents: a call that hands every usable
+/// document to the sink (recording skipped ones and warnings) and returns
+/// the counts of what it saw.
+type DocumentSource<'a> = dyn FnMut(
+        &mut Vec<Diagnostic>,
+        &mut Vec<String>,
+        &mut dyn FnMut(RawDocument),
+    ) -> Result<ReadCounts, ReadError>
+    + 'a;
+
+/// The build itself: tokenize what `source` hands over, count, prune, drop
+/// documents left empty and summarise.
+fn build_from(
+    settings: &BuildSettings,
+    source: &mut DocumentSource<'_>,
+) -> Result<(Corpus, BuildSummary), CorpusError> {
     let tokenizer = Tokenizer::new(&settings.tokenizer)?;
     let mut vocab = VocabBuilder::new();
     let mut documents: Vec<DocumentInfo> = Vec::new();
@@ -265,67 +309,61 @@ pub fn build(inputs: &[PathBuf], settings: &BuildSettings) -> Result<(Corpus, Bu
     let mut no_tokens: Vec<Diagnostic> = Vec::new();
     let mut warnings: Vec<String> = Vec::new();
     let mut documents_split = 0usize;
-    let counts = read::read_documents(
-        inputs,
-        &settings.read,
-        &mut diagnostics,
-        &mut warnings,
-        &mut |doc| {
-            let start = tokens.len();
-            vocab.start_document();
-            // Chunk boundaries: a new chunk (a new document for the
-            // vocabulary's counts) starts every `split_every` tokens.
-            let mut boundaries = vec![start];
-            let mut next_chunk = |tokens: &Vec<u32>, vocab: &mut VocabBuilder| {
-                if let Some(every) = settings.split_every
-                    && tokens.len() - boundaries[boundaries.len() - 1] == every
-                {
-                    boundaries.push(tokens.len());
-                    vocab.start_document();
-                }
-            };
-            if tokenizer.stems() {
-                tokenizer.for_each_token_with_surface(&doc.text, &mut |token, surface| {
-                    next_chunk(&tokens, &mut vocab);
-                    tokens.push(vocab.add_token_with_surface(token, surface));
-                });
-            } else {
-                tokenizer.for_each_token(&doc.text, &mut |token| {
-                    next_chunk(&tokens, &mut vocab);
-                    tokens.push(vocab.add_token(token));
-                });
+    let counts = source(&mut diagnostics, &mut warnings, &mut |doc| {
+        let start = tokens.len();
+        vocab.start_document();
+        // Chunk boundaries: a new chunk (a new document for the
+        // vocabulary's counts) starts every `split_every` tokens.
+        let mut boundaries = vec![start];
+        let mut next_chunk = |tokens: &Vec<u32>, vocab: &mut VocabBuilder| {
+            if let Some(every) = settings.split_every
+                && tokens.len() - boundaries[boundaries.len() - 1] == every
+            {
+                boundaries.push(tokens.len());
+                vocab.start_document();
             }
-            if tokens.len() == start {
-                vocab.remove_document(&[]);
-                no_tokens.push(Diagnostic {
-                    kind: DiagnosticKind::NoTokens,
-                    origin: doc.origin.clone(),
-                    document: Some(doc.id.clone()),
-                    message: format!("document `{}` has no tokens after tokenizing", doc.id),
-                });
-                return;
-            }
-            boundaries.push(tokens.len());
-            let chunks = boundaries.len() - 1;
-            if chunks > 1 {
-                documents_split += 1;
-            }
-            let source = doc.origin.to_string();
-            for (number, &end) in boundaries.iter().enumerate().skip(1) {
-                offsets.push(end as u64);
-                documents.push(DocumentInfo {
-                    id: if chunks > 1 {
-                        chunk_id(&doc.id, number)
-                    } else {
-                        doc.id.clone()
-                    },
-                    label: doc.label.clone(),
-                    date: doc.date.clone(),
-                    source: source.clone(),
-                });
-            }
-        },
-    )?;
+        };
+        if tokenizer.stems() {
+            tokenizer.for_each_token_with_surface(&doc.text, &mut |token, surface| {
+                next_chunk(&tokens, &mut vocab);
+                tokens.push(vocab.add_token_with_surface(token, surface));
+            });
+        } else {
+            tokenizer.for_each_token(&doc.text, &mut |token| {
+                next_chunk(&tokens, &mut vocab);
+                tokens.push(vocab.add_token(token));
+            });
+        }
+        if tokens.len() == start {
+            vocab.remove_document(&[]);
+            no_tokens.push(Diagnostic {
+                kind: DiagnosticKind::NoTokens,
+                origin: doc.origin.clone(),
+                document: Some(doc.id.clone()),
+                message: format!("document `{}` has no tokens after tokenizing", doc.id),
+            });
+            return;
+        }
+        boundaries.push(tokens.len());
+        let chunks = boundaries.len() - 1;
+        if chunks > 1 {
+            documents_split += 1;
+        }
+        let source = doc.origin.to_string();
+        for (number, &end) in boundaries.iter().enumerate().skip(1) {
+            offsets.push(end as u64);
+            documents.push(DocumentInfo {
+                id: if chunks > 1 {
+                    chunk_id(&doc.id, number)
+                } else {
+                    doc.id.clone()
+                },
+                label: doc.label.clone(),
+                date: doc.date.clone(),
+                source: source.clone(),
+            });
+        }
+    })?;
     diagnostics.append(&mut no_tokens);
     let tokens_before_pruning = tokens.len();
     let (vocabulary, remap, pruning) = vocab.finish(&settings.prune);
@@ -536,5 +574,60 @@ mod tests {
         let mut lookalike = corpus.clone();
         lookalike.documents[3].id = "b#1".into();
         assert_eq!(chunk_groups(&lookalike)[1], ("b#1".to_string(), 3..4));
+    }
+
+    #[test]
+    fn documents_in_memory_build_the_corpus_their_file_builds() {
+        // Source: the project's rule of one implementation (issue 17): the
+        // same records, read from a JSON Lines file or handed over in
+        // memory, give the same corpus (ids, labels, vocabulary, tokens);
+        // only the recorded sources differ. The reader's rules hold too:
+        // an empty text and a repeated id are skipped with a diagnostic
+        // (common practice, as for files).
+        let folder = tempfile::tempdir().unwrap();
+        let (from_file, file_summary) = build(&inputs(folder.path()), &settings(Some(10))).unwrap();
+        let long: Vec<String> = (0..25).map(|idx| format!("w{}", idx % 7)).collect();
+        let records = [
+            ("long", long.join(" "), Some("big")),
+            ("blank", "   ".to_string(), None),
+            ("b", "w1 w2 w3".to_string(), None),
+            ("b", "a repeated id".to_string(), None),
+            ("c", "w4 w5 w6".to_string(), None),
+        ];
+        let documents: Vec<RawDocument> = records
+            .iter()
+            .enumerate()
+            .map(|(idx, (id, text, label))| RawDocument {
+                id: id.to_string(),
+                text: text.clone(),
+                label: label.map(str::to_string),
+                date: None,
+                origin: Origin {
+                    file: "<memory>".into(),
+                    line: Some(idx as u64 + 1),
+                },
+            })
+            .collect();
+        let (in_memory, summary) = build_from_documents(documents, &settings(Some(10))).unwrap();
+        assert_eq!(in_memory.vocabulary, from_file.vocabulary);
+        assert_eq!(in_memory.tokens, from_file.tokens);
+        assert_eq!(in_memory.offsets, from_file.offsets);
+        let described = |corpus: &Corpus| -> Vec<(String, Option<String>)> {
+            corpus
+                .documents
+                .iter()
+                .map(|doc| (doc.id.clone(), doc.label.clone()))
+                .collect()
+        };
+        assert_eq!(described(&in_memory), described(&from_file));
+        assert_eq!(in_memory.documents[3].source, "<memory>:3");
+        assert_eq!(summary.documents_read, 5);
+        assert_eq!(summary.documents_split, file_summary.documents_split);
+        let kinds: Vec<DiagnosticKind> = summary.diagnostics.iter().map(|d| d.kind).collect();
+        assert_eq!(kinds, [DiagnosticKind::Empty, DiagnosticKind::DuplicateId]);
+        assert!(matches!(
+            build_from_documents(Vec::new(), &settings(None)),
+            Err(CorpusError::Empty { .. })
+        ));
     }
 }

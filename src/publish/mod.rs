@@ -35,6 +35,7 @@ pub mod lock;
 pub mod names;
 pub mod record;
 pub mod root;
+pub mod side_files;
 
 use std::path::PathBuf;
 

@@ -319,15 +319,7 @@ fn read_documents_from(
         .iter()
         .map(|path| plan_input(path, options.format))
         .collect::<Result<Vec<_>, _>>()?;
-    let mut collector = Collector {
-        diagnostics,
-        sink,
-        seen_ids: HashSet::new(),
-        unique_ids: options.unique_ids,
-        counts: ReadCounts::default(),
-        named_found: vec![false; options.named_fields.len()],
-        records_read: false,
-    };
+    let mut collector = Collector::new(options, diagnostics, sink);
     for plan in plans {
         match plan {
             InputPlan::Stdin => read_stdin(open_stdin(), options, &mut collector)?,
@@ -371,6 +363,25 @@ fn read_documents_from(
         }
     }
     Ok(collector.counts)
+}
+
+/// Hands documents already in memory (for example a list of texts from a
+/// caller of the library) to `sink` under the same rules as files: a
+/// document whose text is empty or only whitespace is skipped, and so is one
+/// whose id an earlier one had (when `options.unique_ids` is on). Every
+/// document counts as one record seen.
+pub fn offer_documents(
+    documents: impl IntoIterator<Item = RawDocument>,
+    options: &ReadOptions,
+    diagnostics: &mut Vec<Diagnostic>,
+    sink: &mut dyn FnMut(RawDocument),
+) -> ReadCounts {
+    let mut collector = Collector::new(options, diagnostics, sink);
+    for document in documents {
+        collector.counts.records_seen += 1;
+        collector.offer(document);
+    }
+    collector.counts
 }
 
 /// How a file's content is laid out.
@@ -451,7 +462,24 @@ struct Collector<'a> {
     records_read: bool,
 }
 
-impl Collector<'_> {
+impl<'a> Collector<'a> {
+    /// A collector for one call with `options`, empty.
+    fn new(
+        options: &ReadOptions,
+        diagnostics: &'a mut Vec<Diagnostic>,
+        sink: &'a mut dyn FnMut(RawDocument),
+    ) -> Collector<'a> {
+        Collector {
+            diagnostics,
+            sink,
+            seen_ids: HashSet::new(),
+            unique_ids: options.unique_ids,
+            counts: ReadCounts::default(),
+            named_found: vec![false; options.named_fields.len()],
+            records_read: false,
+        }
+    }
+
     /// Notes the fields a record (or a CSV header) has.
     fn note_fields(&mut self, options: &ReadOptions, mut has: impl FnMut(&str) -> bool) {
         self.records_read = true;
@@ -693,15 +721,7 @@ mod test_support {
         let mut documents = Vec::new();
         let mut diagnostics = Vec::new();
         let mut sink = |document| documents.push(document);
-        let mut collector = Collector {
-            diagnostics: &mut diagnostics,
-            sink: &mut sink,
-            seen_ids: HashSet::new(),
-            unique_ids: options.unique_ids,
-            counts: ReadCounts::default(),
-            named_found: vec![false; options.named_fields.len()],
-            records_read: false,
-        };
+        let mut collector = Collector::new(options, &mut diagnostics, &mut sink);
         let result = read_json_lines(Cursor::new(bytes), "mem.jsonl", options, &mut collector)
             .map(|()| collector.counts);
         Outcome {

@@ -22,6 +22,7 @@ use crate::ingest::corpus::BuildSummary;
 use crate::model::Model;
 use crate::publish::names::TopicNames;
 use crate::publish::record::RunRecord;
+use crate::publish::side_files::FolderContext;
 use crate::report::dates::{self, CalendarDate, Timeline};
 
 /// Representative documents listed on a topic's card.
@@ -55,6 +56,29 @@ pub struct ReportContext<'a> {
     pub level: f64,
     /// Notes to show at the top (for example a names file that did not parse).
     pub warnings: Vec<String>,
+}
+
+impl<'a> ReportContext<'a> {
+    /// The context of a model read from a folder: `title`, and what the
+    /// folder's side files say (names, run record, build, held-out
+    /// perplexity, warnings about side files that could not be read).
+    pub fn of_folder(
+        title: String,
+        side: &'a FolderContext,
+        top_words: usize,
+        level: f64,
+    ) -> ReportContext<'a> {
+        ReportContext {
+            title,
+            names: side.names.as_ref(),
+            record: side.record.as_ref(),
+            build: side.build.as_ref(),
+            heldout_perplexity: side.heldout_perplexity,
+            top_words,
+            level,
+            warnings: side.warnings.clone(),
+        }
+    }
 }
 
 /// One of a topic's heaviest words.
