@@ -105,7 +105,7 @@ impl<'l, L: Link> RankEngine<'l, L> {
             model.schedule.sampler,
         ) else {
             return Err(
-                "the reference sampler does not run on the block grid, so it cannot be spread over ranks; choose --sampler exact, mh or sparse"
+                "the reference sampler does not run on the block grid, so it cannot be spread over ranks; choose --sampler exact, metropolis or sparse"
                     .to_string(),
             );
         };

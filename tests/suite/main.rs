@@ -9,6 +9,8 @@ mod formats;
 mod geweke;
 mod golden;
 mod learning;
+#[cfg(feature = "mpi")]
+mod mpi;
 mod nightly;
 mod report;
 mod samplers;
