@@ -403,8 +403,25 @@ mod tests {
             })
             .unwrap();
             let single = single.encode(std::path::Path::new("model.bin")).unwrap();
+            // The communication model of ARCHITECTURE.md from the word
+            // counts alone: a dense row of K cells, or next_pow2(2 n_w)
+            // cells when that is at most K / 2; 4 bytes a cell, plus 2 bytes
+            // a token of word-major entries for the MH kernel.
+            let cells: u64 = sampler::word_token_counts(&corpus)
+                .iter()
+                .map(|&tokens| {
+                    let sparse = (2 * tokens.max(1)).next_power_of_two();
+                    if 2 * sparse <= 6 { sparse } else { 6 }
+                })
+                .sum();
+            let entries = if choice == SamplerChoice::Metropolis {
+                2 * corpus.n_tokens() as u64
+            } else {
+                0
+            };
             for ranks in [1, 2, 4] {
                 let (bytes, traffic, predicted) = fit_on_ranks(&start, ranks);
+                assert_eq!(predicted, if ranks == 1 { 0 } else { 4 * cells + entries });
                 assert!(
                     bytes == single,
                     "{choice:?} on {ranks} ranks differs from one process"
