@@ -31,7 +31,21 @@ target/release/examples/synthetic_corpus "$TOKENS" "$WORDS" "$TOPICS" "$work/cor
 
 fit_args=("$work/corpus.bin" --topics "$TOPICS" --iterations "$SWEEPS" --burn-in 0
     --trace-every 1000 --shards 4 --sampler "$SAMPLER" --threads 1 --quiet)
-mpi=(mpirun --allow-run-as-root --oversubscribe --bind-to none)
+# A waiting rank yields its core instead of polling: on a shared machine
+# polling takes CPU from the ranks that still sample.
+mpi=(mpirun --allow-run-as-root --oversubscribe --bind-to none --mca mpi_yield_when_idle 1)
+
+# Each rank under /usr/bin/time: the share of a core it got (user CPU over
+# wall clock) shows how much of the machine the ranks had.
+timed="$work/timed.sh"
+printf '#!/bin/sh\nexec /usr/bin/time -o "$TIMES/rank$OMPI_COMM_WORLD_RANK" -f "%%e %%U" "$@"\n' >"$timed"
+chmod +x "$timed"
+export TIMES="$work/times"
+mkdir -p "$TIMES"
+shares() { # the cores' shares each rank got in the last run
+    for file in "$TIMES"/rank*; do awk '{ printf "%.0f%% ", 100 * $2 / $1 }' "$file"; done
+    rm -f "$TIMES"/rank*
+}
 
 field() { # summary.json FIELD PATH...
     python3 - "$@" <<'PY'
@@ -50,8 +64,10 @@ for ranks in 1 2; do
     runs=()
     for repeat in 1 2 3; do
         out="$work/r$ranks-$repeat"
-        "${mpi[@]}" -np "$ranks" "$bin" fit "${fit_args[@]}" --out "$out"
+        "${mpi[@]}" -np "$ranks" "$timed" "$bin" fit "${fit_args[@]}" --out "$out"
+        echo "  ranks $ranks, run $repeat: share of a core each rank got: $(shares)"
         runs+=("$(field "$out/summary.json" tokens_per_second)")
+        [ "$ranks" -gt 1 ] && echo "  run $repeat: seconds in epoch-end exchanges by rank (waits included): $(field "$out/summary.json" ranks exchange_seconds) of $(field "$out/summary.json" sampling_seconds)"
         cmp -s "$work/r1-1/model.bin" "$out/model.bin" || { echo "model of $ranks ranks differs"; exit 1; }
     done
     median=$(printf '%s\n' "${runs[@]}" | sort -g | sed -n 2p)

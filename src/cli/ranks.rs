@@ -109,6 +109,9 @@ mod imp {
         rank: usize,
         ranks: usize,
         traffic: Traffic,
+        /// Seconds spent in the epoch-end exchanges (waiting for the
+        /// slowest rank included).
+        waiting: f64,
     }
 
     struct Job {
@@ -156,10 +159,12 @@ mod imp {
 
     impl EpochLink for MpiLink {
         fn sum_changes(&mut self, changes: &mut [i64]) {
+            let started = std::time::Instant::now();
             self.traffic.totals_bytes += (changes.len() * 8 * (self.ranks - 1)) as u64;
             let local = changes.to_vec();
             self.world
                 .all_reduce_into(&local[..], changes, SystemOperation::sum());
+            self.waiting += started.elapsed().as_secs_f64();
         }
 
         fn pass_group(
@@ -170,8 +175,10 @@ mod imp {
             entries_in: &mut [Topic],
         ) {
             self.traffic.ring_bytes += (std::mem::size_of_val(cells) + std::mem::size_of_val(entries)) as u64;
+            let started = std::time::Instant::now();
             self.shift(cells, cells_in);
             self.shift(entries, entries_in);
+            self.waiting += started.elapsed().as_secs_f64();
         }
     }
 
@@ -228,6 +235,7 @@ mod imp {
                     rank: place.rank,
                     ranks: place.ranks,
                     traffic: Traffic::default(),
+                    waiting: 0.0,
                 },
                 summary: None,
             })
@@ -285,6 +293,7 @@ mod imp {
             .build_global();
         let mut progress = SweepProgress::new(model.target, quiet || !root);
         let before = job.link.traffic;
+        let waited_before = job.link.waiting;
         let every = checkpoint.as_ref().map(|(every, _)| *every);
         let ranks = job.link.ranks;
         let mut engine = RankEngine::new(model, &mut job.link, every)
@@ -328,6 +337,7 @@ mod imp {
             sent.totals_bytes - before.totals_bytes,
             sent.gather_bytes - before.gather_bytes,
         ];
+        let waited = link.gather(&[link.waiting - waited_before]);
         let all = link.gather(&mine);
         let per_rank: Vec<Traffic> = all
             .chunks_exact(3)
@@ -347,6 +357,7 @@ mod imp {
                 .collect(),
             predicted_ring_bytes_per_sweep: predicted,
             bytes_sent: per_rank.iter().map(Traffic::total).collect(),
+            exchange_seconds: waited,
         });
         Ok(timing)
     }

@@ -75,6 +75,10 @@ pub struct RanksSummary {
     pub predicted_ring_bytes_per_sweep: u64,
     /// Bytes each rank sent in the whole job, by rank.
     pub bytes_sent: Vec<u64>,
+    /// Seconds each rank spent in the exchanges at the end of each epoch
+    /// (passing word groups, summing the topic totals), waiting for slower
+    /// ranks included; part of `sampling_seconds`.
+    pub exchange_seconds: Vec<f64>,
 }
 
 /// Version of the summary.json layout.
