@@ -150,6 +150,9 @@ pub fn sample(
             "--checkpoint-every must be at least 1"
         )));
     }
+    if let Some(outcome) = super::ranks::sample(model, threads, &checkpoint, quiet) {
+        return outcome;
+    }
     let pool = themata::thread_pool(threads).map_err(Failure::system)?;
     let mut progress = SweepProgress::new(model.target, quiet);
     let mut checkpoint_error = None;

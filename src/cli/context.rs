@@ -4,8 +4,8 @@
 
 use std::path::Path;
 
-pub use themata::publish::side_files::{FolderContext, model_title};
 use themata::publish::names::{self, TopicNames};
+pub use themata::publish::side_files::{FolderContext, model_title};
 
 /// Reads what there is beside the model in `dir`, printing on stderr a
 /// warning for each side file that could not be read.

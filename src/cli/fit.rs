@@ -12,7 +12,7 @@ use themata::model::summary::FitSummary;
 use themata::settings::{self, FitOptions};
 
 use super::common::{print_fit_line, sample, score_holdout, split_for_holdout, warm_start_model};
-use super::{Failure, FitArgs};
+use super::{Failure, FitArgs, ranks};
 
 /// How `fit` was asked to start.
 enum Start {
@@ -21,8 +21,23 @@ enum Start {
     Resume(PathBuf),
 }
 
-/// Runs `themata fit`.
+/// Runs `themata fit`; under an MPI launcher (with the `mpi` feature), as
+/// one rank of the job: every rank fits, rank 0 alone writes and prints.
 pub fn run(args: FitArgs) -> Result<(), Failure> {
+    let place = ranks::join()?;
+    let result = fit(args, place);
+    if let Err(failure) = &result {
+        ranks::abort_on(failure);
+    }
+    result
+}
+
+fn fit(mut args: FitArgs, place: Option<ranks::Place>) -> Result<(), Failure> {
+    let root = place.is_none_or(|place| place.is_root());
+    args.quiet |= !root;
+    if place.is_some() && args.fit.threads.is_none() {
+        args.fit.threads = ranks::default_threads();
+    }
     let start = match (&args.corpus, &args.continue_from, &args.resume) {
         (Some(corpus), None, None) => Start::Fresh(corpus.clone()),
         (None, Some(dir), None) => Start::Continue(dir.clone()),
@@ -87,19 +102,25 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         }
     };
     // Refuse an unusable output folder before sampling, not after.
-    drop(StagedFolder::begin(&out)?);
+    if root {
+        drop(StagedFolder::begin(&out)?);
+    }
     let checkpoint = args
         .fit
         .checkpoint_every
         .map(|every| (every, checkpoint_path(&out)));
     let timing = sample(&mut model, threads, checkpoint, args.quiet)?;
+    if !root {
+        return Ok(());
+    }
     let mut summary = FitSummary::new(
         &model,
         threads,
         timing.sampling_seconds,
         timing.tokens_per_second(),
     )
-    .with_peak_rss(themata::testbed::memory::peak_rss_bytes());
+    .with_peak_rss(themata::testbed::memory::peak_rss_bytes())
+    .with_ranks(ranks::summary());
     if let Some(held) = &heldout {
         summary = summary.with_heldout(score_holdout(&model, held, threads)?);
     }

@@ -28,6 +28,7 @@ mod context;
 mod export;
 mod fit;
 mod progress;
+mod ranks;
 mod report;
 mod run;
 mod run_root;

@@ -11,10 +11,26 @@ use super::common::{
 };
 use super::context::stage_report;
 use super::run_root::{self, RootRun};
-use super::{Failure, RunArgs};
+use super::{Failure, RunArgs, ranks};
 
-/// Runs `themata run`.
+/// Runs `themata run`; under an MPI launcher (with the `mpi` feature), as
+/// one rank of the job: every rank builds the corpus and fits, rank 0 alone
+/// writes the output folder and prints. Run roots are refused there.
 pub fn run(args: RunArgs) -> Result<(), Failure> {
+    let place = ranks::join()?;
+    let result = run_config(args, place);
+    if let Err(failure) = &result {
+        ranks::abort_on(failure);
+    }
+    result
+}
+
+fn run_config(mut args: RunArgs, place: Option<ranks::Place>) -> Result<(), Failure> {
+    let root = place.is_none_or(|place| place.is_root());
+    args.quiet |= !root;
+    if place.is_some() && args.fit.threads.is_none() {
+        args.fit.threads = ranks::default_threads();
+    }
     let config = RunConfig::load(&args.config)?;
     let input = config.input.overlay(args.input);
     let tokenizer = config.tokenizer.overlay(args.tokenizer);
@@ -34,6 +50,13 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
     let gate = config.gate.overlay(args.gate);
     gate.check()?;
     if let Some(publish) = config.publish.overlay(args.publish).resolve()? {
+        if let Some(place) = place {
+            return Err(Failure::bad_input(anyhow::anyhow!(
+                "{}: a run root ([publish] root) is not supported on {} MPI ranks; fit with `mpirun ... themata run` into an [output] dir, or run the root on one process",
+                args.config.display(),
+                place.ranks
+            )));
+        }
         return run_root::run(RootRun {
             config: &args.config,
             inputs: &inputs,
@@ -79,13 +102,17 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
         &checkpoint_path(&out_dir),
         args.quiet,
     )?;
+    if !root {
+        return Ok(());
+    }
     let mut summary = FitSummary::new(
         &model,
         plan.threads,
         timing.sampling_seconds,
         timing.tokens_per_second(),
     )
-    .with_peak_rss(themata::testbed::memory::peak_rss_bytes());
+    .with_peak_rss(themata::testbed::memory::peak_rss_bytes())
+    .with_ranks(ranks::summary());
     if let Some((_, score)) = heldout {
         summary = summary.with_heldout(score);
     }

@@ -5,7 +5,7 @@
 //! convergence. Reports progress and checkpoints through callbacks and does
 //! no I/O of its own.
 
-use std::ops::ControlFlow;
+use std::ops::{ControlFlow, Range};
 use std::time::Instant;
 
 use rand::SeedableRng;
@@ -366,6 +366,74 @@ fn is_sample_iteration(schedule: &Schedule, iteration: u64, target: u64) -> bool
         && (target - iteration) / schedule.lag < schedule.samples
 }
 
+/// How a run's sweeps and its whole-state steps are carried out: in this
+/// process ([`LocalEngine`]), or by one rank of a distributed fit
+/// (`fitting::distributed`), where a rank holds only part of the state
+/// between sweeps.
+pub trait SweepEngine {
+    /// One sweep of the model's state (sweep number `model.iterations_done + 1`).
+    fn sweep(&mut self, model: &mut Model);
+    /// For each topic, the histogram of its token count over documents.
+    fn doc_topic_histograms(&mut self, model: &Model) -> Vec<CountHistogram>;
+    /// The histogram of every non-zero word-topic count.
+    fn word_topic_histogram(&mut self, model: &Model) -> CountHistogram;
+    /// The joint log-likelihood of the state.
+    fn log_likelihood(&mut self, model: &Model) -> f64;
+    /// Called after sweep `done` (and the learning and trace steps) with
+    /// `whole` true when a posterior sample is taken or the run ends: makes
+    /// `model.state` whole and current here when it, or a checkpoint due
+    /// after this sweep, needs it.
+    fn settle(&mut self, model: &mut Model, done: u64, whole: bool);
+}
+
+/// The sweeps of one process: the block grid on the thread pool, or the
+/// reference sweep.
+pub struct LocalEngine {
+    sharded: Option<ShardedSampler>,
+}
+
+impl LocalEngine {
+    /// The engine for `model`'s sampler and shards.
+    pub fn new(model: &Model) -> LocalEngine {
+        LocalEngine {
+            sharded: ShardedSampler::new(
+                &model.corpus,
+                model.schedule.shards as usize,
+                model.schedule.sampler,
+            ),
+        }
+    }
+}
+
+impl SweepEngine for LocalEngine {
+    fn sweep(&mut self, model: &mut Model) {
+        match &mut self.sharded {
+            Some(engine) => engine.sweep(
+                &mut model.state,
+                &model.corpus,
+                &model.priors,
+                model.seed,
+                model.iterations_done + 1,
+            ),
+            None => sampler::sweep_reference(&mut model.state, &model.corpus, &model.priors, &mut model.rng),
+        }
+    }
+
+    fn doc_topic_histograms(&mut self, model: &Model) -> Vec<CountHistogram> {
+        doc_topic_histograms(&model.state, &model.corpus, 0..model.corpus.n_docs())
+    }
+
+    fn word_topic_histogram(&mut self, model: &Model) -> CountHistogram {
+        word_topic_histogram(&model.state, 0..model.state.n_words)
+    }
+
+    fn log_likelihood(&mut self, model: &Model) -> f64 {
+        sampler::log_likelihood(&model.state, &model.corpus, &model.priors).total()
+    }
+
+    fn settle(&mut self, _model: &mut Model, _done: u64, _whole: bool) {}
+}
+
 /// Runs sweeps until the model reaches its target. After each sweep, in this
 /// order: learn the priors if due, record the trace if due, keep a sample if
 /// due, then hand the model to `checkpoint` (which may save it, or stop the
@@ -376,28 +444,26 @@ pub fn run_to_target(
     observer: &mut dyn FnMut(FitEvent),
     checkpoint: &mut dyn FnMut(&Model) -> ControlFlow<()>,
 ) -> Result<FitTiming, FitError> {
+    let mut engine = LocalEngine::new(model);
+    run_with_engine(model, &mut engine, observer, checkpoint)
+}
+
+/// [`run_to_target`] with the sweeps and the whole-state steps carried out
+/// by `engine`.
+pub fn run_with_engine(
+    model: &mut Model,
+    engine: &mut dyn SweepEngine,
+    observer: &mut dyn FnMut(FitEvent),
+    checkpoint: &mut dyn FnMut(&Model) -> ControlFlow<()>,
+) -> Result<FitTiming, FitError> {
     let mut timing = FitTiming::default();
     let learn = LearnSettings::default();
     let doc_lengths = CountHistogram::from_counts(
         (0..model.corpus.n_docs()).map(|d| (model.corpus.offsets[d + 1] - model.corpus.offsets[d]) as u32),
     );
-    let mut sharded = ShardedSampler::new(
-        &model.corpus,
-        model.schedule.shards as usize,
-        model.schedule.sampler,
-    );
     while model.iterations_done < model.target {
         let started = Instant::now();
-        match &mut sharded {
-            Some(engine) => engine.sweep(
-                &mut model.state,
-                &model.corpus,
-                &model.priors,
-                model.seed,
-                model.iterations_done + 1,
-            ),
-            None => sampler::sweep_reference(&mut model.state, &model.corpus, &model.priors, &mut model.rng),
-        }
+        engine.sweep(model);
         timing.sampling_seconds += started.elapsed().as_secs_f64();
         timing.token_updates += model.corpus.n_tokens() as u64;
         model.iterations_done += 1;
@@ -406,7 +472,7 @@ pub fn run_to_target(
 
         if done > schedule.burn_in && (done - schedule.burn_in).is_multiple_of(schedule.learn_every) {
             if schedule.learn_alpha {
-                let per_topic = doc_topic_histograms(&model.state, &model.corpus);
+                let per_topic = engine.doc_topic_histograms(model);
                 model.priors.alpha =
                     priors::learn_alpha(&model.priors.alpha, &per_topic, &doc_lengths, &learn)?;
                 model.alpha_trace.push((done, model.priors.alpha.clone()));
@@ -414,7 +480,7 @@ pub fn run_to_target(
             if schedule.learn_beta
                 && let BetaPrior::Symmetric(beta) = model.priors.beta
             {
-                let word_topic = word_topic_histogram(&model.state);
+                let word_topic = engine.word_topic_histogram(model);
                 let totals = CountHistogram::from_counts(model.state.topic_totals.iter().map(|&n| n as u32));
                 let learned =
                     priors::learn_symmetric_beta(beta, model.state.n_words, &word_topic, &totals, &learn)?;
@@ -424,13 +490,15 @@ pub fn run_to_target(
         }
 
         let log_likelihood = if done.is_multiple_of(model.schedule.trace_every) || done == model.target {
-            let value = sampler::log_likelihood(&model.state, &model.corpus, &model.priors).total();
+            let value = engine.log_likelihood(model);
             model.trace.push((done, value));
             Some(value)
         } else {
             None
         };
-        if is_sample_iteration(&model.schedule, done, model.target) {
+        let keep_sample = is_sample_iteration(&model.schedule, done, model.target);
+        engine.settle(model, done, keep_sample || done == model.target);
+        if keep_sample {
             let sample = Sample::of(model, done);
             model.samples.push(sample);
         }
@@ -447,9 +515,10 @@ pub fn run_to_target(
 }
 
 /// For each topic, the histogram of its token count over documents (zeros left out).
-fn doc_topic_histograms(state: &CountState, corpus: &Corpus) -> Vec<CountHistogram> {
+/// Over the documents `docs` only.
+pub fn doc_topic_histograms(state: &CountState, corpus: &Corpus, docs: Range<usize>) -> Vec<CountHistogram> {
     let mut per_topic: Vec<HistogramBuilder> = vec![HistogramBuilder::default(); state.n_topics];
-    for doc_idx in 0..corpus.n_docs() {
+    for doc_idx in docs {
         for (topic, count) in state.doc_topic_pairs(corpus, doc_idx) {
             per_topic[topic as usize].add(count);
         }
@@ -458,9 +527,10 @@ fn doc_topic_histograms(state: &CountState, corpus: &Corpus) -> Vec<CountHistogr
 }
 
 /// The histogram of every non-zero word-topic count.
-fn word_topic_histogram(state: &CountState) -> CountHistogram {
+/// Over the words `words` only.
+pub fn word_topic_histogram(state: &CountState, words: Range<usize>) -> CountHistogram {
     let mut histogram = HistogramBuilder::default();
-    for word_idx in 0..state.n_words {
+    for word_idx in words {
         state
             .word_topic
             .for_each_nonzero(word_idx, |_, count| histogram.add(count));

@@ -3,6 +3,7 @@
 //! samples; [`priors`] learns alpha and beta; [`sampler`] holds the count
 //! state and the sweeps themselves. Nothing here does file I/O.
 
+pub mod distributed;
 pub mod fit;
 pub mod priors;
 pub mod sampler;

@@ -155,6 +155,25 @@ impl CountHistogram {
         }
     }
 
+    /// The `(count, items)` pairs, counts increasing.
+    pub fn pairs(&self) -> &[(u32, u64)] {
+        &self.distinct
+    }
+
+    /// The histogram of the union of several item sets given as
+    /// `(count, items)` pairs in any order (items of equal counts add up).
+    pub fn from_pairs(pairs: impl IntoIterator<Item = (u32, u64)>) -> CountHistogram {
+        let mut merged = std::collections::BTreeMap::new();
+        for (count, items) in pairs {
+            if count > 0 && items > 0 {
+                *merged.entry(count).or_insert(0u64) += items;
+            }
+        }
+        CountHistogram {
+            distinct: merged.into_iter().collect(),
+        }
+    }
+
     /// The largest count added (0 when no item has a positive count).
     pub fn max(&self) -> u32 {
         self.distinct.last().map_or(0, |&(count, _)| count)

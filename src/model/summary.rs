@@ -54,6 +54,31 @@ pub struct FitSummary {
     /// How well the training documents' top topics agree with their labels
     /// (normalised mutual information; null when no document has a label).
     pub label_agreement: Option<LabelAgreement>,
+    /// The ranks of an MPI job that fitted the model and what each sent
+    /// (absent when one process fitted it).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub ranks: Option<RanksSummary>,
+}
+
+/// The ranks of a distributed fit and the bytes each sent.
+#[derive(Clone, Debug, Serialize)]
+pub struct RanksSummary {
+    /// The number of ranks, R.
+    pub ranks: usize,
+    /// Sweeps run in this job (fewer than `iterations` after a resume).
+    pub sweeps: u64,
+    /// Bytes each rank sent per sweep (ring, topic-total sums and gathers), by rank.
+    pub bytes_sent_per_sweep: Vec<u64>,
+    /// Of those, the word groups passed around the ring, by rank.
+    pub ring_bytes_per_sweep: Vec<u64>,
+    /// What the communication model of ARCHITECTURE.md predicts for the ring.
+    pub predicted_ring_bytes_per_sweep: u64,
+    /// Bytes each rank sent in the whole job, by rank.
+    pub bytes_sent: Vec<u64>,
+    /// Seconds each rank spent in the exchanges at the end of each epoch
+    /// (passing word groups, summing the topic totals), waiting for slower
+    /// ranks included; part of `sampling_seconds`.
+    pub exchange_seconds: Vec<f64>,
 }
 
 /// Version of the summary.json layout.
@@ -104,7 +129,14 @@ impl FitSummary {
             peak_rss_bytes: None,
             topic_ids: model.topic_ids.clone(),
             label_agreement: label_agreement(model),
+            ranks: None,
         }
+    }
+
+    /// Records the ranks of the MPI job that fitted the model.
+    pub fn with_ranks(mut self, ranks: Option<RanksSummary>) -> FitSummary {
+        self.ranks = ranks;
+        self
     }
 
     /// Records the peak resident memory of the fitting process.

@@ -1900,3 +1900,24 @@ fn long_documents_are_flagged_and_can_be_cut_into_chunks() {
         .code(BAD_INPUT)
         .stderr(predicate::str::contains("nothing to merge"));
 }
+
+#[cfg(not(feature = "mpi"))]
+#[test]
+fn a_build_without_mpi_refuses_to_run_as_one_of_several_ranks() {
+    // Source: Open MPI's documentation — mpirun sets OMPI_COMM_WORLD_SIZE in
+    // each rank's environment. Without the feature, R copies of the command
+    // would each fit the whole model into one folder; it must refuse instead.
+    let scratch = Scratch::new();
+    let output = themata(scratch.root())
+        .env("OMPI_COMM_WORLD_SIZE", "2")
+        .args(["fit", "corpus.bin", "--out", "out", "--topics", "3"])
+        .output()
+        .unwrap();
+    assert_eq!(output.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(
+        stderr.contains("built without MPI") && stderr.contains("--features mpi"),
+        "{stderr}"
+    );
+    assert!(!scratch.path("out").exists());
+}

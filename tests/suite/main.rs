@@ -10,6 +10,8 @@ mod geweke;
 mod golden;
 mod hardening;
 mod learning;
+#[cfg(feature = "mpi")]
+mod mpi;
 mod nightly;
 mod report;
 mod samplers;

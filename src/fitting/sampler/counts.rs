@@ -298,6 +298,23 @@ impl WordTopicCounts {
         row_clear_dense(&self.cells, 0, self.layout(word_idx), dense);
     }
 
+    /// The cells of the rows of `words`, as stored (for passing a word
+    /// group's rows between the ranks of a distributed fit: the layout
+    /// depends only on the token counts and K, so it is the same on every rank).
+    pub fn cells(&self, words: std::ops::Range<usize>) -> &[u32] {
+        &self.cells[self.row_start[words.start]..self.row_start[words.end]]
+    }
+
+    /// The cells of the rows of `words`, writable.
+    pub fn cells_mut(&mut self, words: std::ops::Range<usize>) -> &mut [u32] {
+        &mut self.cells[self.row_start[words.start]..self.row_start[words.end]]
+    }
+
+    /// The first cell of word `word_idx`'s row (`V` gives the table's size).
+    pub fn cell_start(&self, word_idx: usize) -> usize {
+        self.row_start[word_idx]
+    }
+
     /// Splits the table into disjoint mutable parts, one per range of words
     /// `bounds[i]..bounds[i + 1]` (`bounds` non-decreasing, from 0 to V).
     pub fn split_by_words(&mut self, bounds: &[usize]) -> Vec<RowsMut<'_>> {

@@ -21,7 +21,7 @@ pub use counts::{RowLayout, RowsMut, WordTopicCounts};
 pub use metropolis::CYCLES_PER_TOKEN;
 pub use reference::{conditional, sweep_reference};
 pub use sharded::{
-    MAX_AUTO_SHARDS, MAX_TOKENS, ShardedSampler, default_shards, plan_shards, plan_word_groups,
+    EpochLink, MAX_AUTO_SHARDS, MAX_TOKENS, ShardedSampler, default_shards, plan_shards, plan_word_groups,
     tokens_per_shard,
 };
 
@@ -203,9 +203,22 @@ impl LogLikelihood {
 /// terms are computed in parallel and summed in a fixed order, so the value
 /// does not depend on the number of threads.
 pub fn log_likelihood(state: &CountState, corpus: &Corpus, priors: &Priors) -> LogLikelihood {
-    let n_words = state.n_words;
-    let beta_sum = priors.beta_sum(n_words);
-    let per_word: Vec<f64> = (0..n_words)
+    let (per_word, per_doc) =
+        log_likelihood_terms(state, corpus, priors, 0..state.n_words, 0..corpus.n_docs());
+    log_likelihood_from_terms(state, priors, &per_word, &per_doc)
+}
+
+/// The per-word and per-document terms of [`log_likelihood`] for the words
+/// `words` and the documents `docs` (a distributed fit computes each rank's
+/// part and adds the gathered terms in the same order).
+pub fn log_likelihood_terms(
+    state: &CountState,
+    corpus: &Corpus,
+    priors: &Priors,
+    words: std::ops::Range<usize>,
+    docs: std::ops::Range<usize>,
+) -> (Vec<f64>, Vec<f64>) {
+    let per_word: Vec<f64> = words
         .into_par_iter()
         .map(|word_idx| {
             let beta = priors.beta_of(word_idx);
@@ -217,14 +230,9 @@ pub fn log_likelihood(state: &CountState, corpus: &Corpus, priors: &Priors) -> L
             sum
         })
         .collect();
-    let totals_part: f64 = state
-        .topic_totals
-        .iter()
-        .map(|&total| ln_gamma(beta_sum) - ln_gamma(total as f64 + beta_sum))
-        .sum();
     let alpha_sum = priors.alpha_sum();
     let alpha_lgamma: Vec<f64> = priors.alpha.iter().map(|&a| ln_gamma(a)).collect();
-    let per_doc: Vec<f64> = (0..corpus.n_docs())
+    let per_doc: Vec<f64> = docs
         .into_par_iter()
         .map(|doc_idx| {
             let doc_len = (corpus.offsets[doc_idx + 1] - corpus.offsets[doc_idx]) as f64;
@@ -236,6 +244,23 @@ pub fn log_likelihood(state: &CountState, corpus: &Corpus, priors: &Priors) -> L
             sum
         })
         .collect();
+    (per_word, per_doc)
+}
+
+/// [`log_likelihood`] from every word's and every document's term, added
+/// in word and document order.
+pub fn log_likelihood_from_terms(
+    state: &CountState,
+    priors: &Priors,
+    per_word: &[f64],
+    per_doc: &[f64],
+) -> LogLikelihood {
+    let beta_sum = priors.beta_sum(state.n_words);
+    let totals_part: f64 = state
+        .topic_totals
+        .iter()
+        .map(|&total| ln_gamma(beta_sum) - ln_gamma(total as f64 + beta_sum))
+        .sum();
     LogLikelihood {
         words: totals_part + per_word.iter().sum::<f64>(),
         topics: per_doc.iter().sum(),

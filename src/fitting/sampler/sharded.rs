@@ -32,6 +32,7 @@
 //! proposals draw; entries of a word group are written only by the block
 //! that owns the group.
 
+use std::ops::Range;
 use std::sync::Mutex;
 
 use rayon::prelude::*;
@@ -97,6 +98,29 @@ pub fn default_shards(n_tokens: usize, kind: SamplerKind) -> usize {
     tokens_per_shard(kind).map_or(1, |per_shard| {
         n_tokens.div_ceil(per_shard).clamp(1, MAX_AUTO_SHARDS)
     })
+}
+
+/// What a distributed sweep asks of the other ranks at the end of each
+/// epoch (see `fitting::distributed`): the ranks form a ring, rank r
+/// samples the shards `r m .. (r + 1) m` (m = P / R), and after each epoch
+/// it hands the word group its first shard used to the previous rank and
+/// takes the group its last shard uses next from the next rank.
+pub trait EpochLink {
+    /// Replaces `changes`, this rank's change of each topic total in the
+    /// epoch, by the sum of every rank's changes (integers: the order of
+    /// addition cannot change the result).
+    fn sum_changes(&mut self, changes: &mut [i64]);
+    /// Sends one word group's cells of the word-topic table and its
+    /// word-major entries to the previous rank, and receives the next
+    /// rank's group into `cells_in` and `entries_in` (whose lengths the
+    /// receiver knows: the table's layout is the same on every rank).
+    fn pass_group(
+        &mut self,
+        cells: &[u32],
+        entries: &[Topic],
+        cells_in: &mut [u32],
+        entries_in: &mut [Topic],
+    );
 }
 
 /// Scratch space of one thread during a sweep, reused across blocks.
@@ -199,6 +223,13 @@ pub struct ShardedSampler {
     /// units of the kernel's word cost.
     block_costs: Vec<f64>,
     records: Vec<WordRecord>,
+    /// The shards this process samples: all of them, or one rank's share
+    /// in a distributed fit ([`ShardedSampler::set_ring`]).
+    own: Range<usize>,
+    /// Whether the word-major list is kept current from sweep to sweep (in
+    /// a distributed fit, where only the home groups' entries are current
+    /// on a rank between sweeps) instead of rebuilt from the state.
+    entries_current: bool,
 }
 
 impl ShardedSampler {
@@ -300,12 +331,59 @@ impl ShardedSampler {
             doc_groups,
             block_costs,
             records: Vec::new(),
+            own: 0..n_groups,
+            entries_current: false,
         })
     }
 
     /// The document shards (P of them).
     pub fn shards(&self) -> &[Shard] {
         &self.shards
+    }
+
+    /// Makes this the sampler of rank `rank` of `ranks` in a distributed fit:
+    /// it samples only the shards `rank m .. (rank + 1) m`, m = P / ranks.
+    pub fn set_ring(&mut self, rank: usize, ranks: usize) -> Result<(), String> {
+        let n_shards = self.shards.len();
+        if ranks == 0 || rank >= ranks || !n_shards.is_multiple_of(ranks) {
+            return Err(format!(
+                "the block grid has {n_shards} shards, which {ranks} ranks cannot share equally; fit with --shards a multiple of {ranks}"
+            ));
+        }
+        let per_rank = n_shards / ranks;
+        self.own = rank * per_rank..(rank + 1) * per_rank;
+        Ok(())
+    }
+
+    /// The shards this process samples.
+    pub fn own_shards(&self) -> Range<usize> {
+        self.own.clone()
+    }
+
+    /// The documents of the shards this process samples.
+    pub fn own_docs(&self) -> Range<usize> {
+        self.shards[self.own.start].docs.start..self.shards[self.own.end - 1].docs.end
+    }
+
+    /// The tokens of the shards this process samples.
+    pub fn own_tokens(&self) -> Range<usize> {
+        self.shards[self.own.start].tokens.start..self.shards[self.own.end - 1].tokens.end
+    }
+
+    /// The words of the groups whose rows are current here between sweeps
+    /// (group q starts each sweep with shard q).
+    pub fn home_words(&self) -> Range<usize> {
+        self.word_bounds[self.own.start]..self.word_bounds[self.own.end]
+    }
+
+    /// The word group bounds (P + 1 of them).
+    pub fn word_bounds(&self) -> &[usize] {
+        &self.word_bounds
+    }
+
+    /// Entries of the word-major list (N for the kernels that read it, else 0).
+    pub fn word_list_len(&self) -> usize {
+        self.entries.len()
     }
 
     /// Bytes of working memory held besides the state.
@@ -328,19 +406,33 @@ impl ShardedSampler {
         seed: u64,
         iteration: u64,
     ) {
+        self.sweep_linked(state, corpus, priors, seed, iteration, None);
+    }
+
+    /// One sweep; with a link, this rank's share of a distributed sweep
+    /// (see [`ShardedSampler::set_ring`] and [`EpochLink`]).
+    pub fn sweep_linked(
+        &mut self,
+        state: &mut CountState,
+        corpus: &Corpus,
+        priors: &Priors,
+        seed: u64,
+        iteration: u64,
+        link: Option<&mut dyn EpochLink>,
+    ) {
         let (n_topics, n_words) = (state.n_topics, state.n_words);
         match self.kind {
             SamplerKind::Exact => {
                 let kernel = ExactKernel::new(priors, n_topics, n_words);
-                self.sweep_with(&kernel, state, corpus, seed, iteration);
+                self.sweep_with(&kernel, state, corpus, seed, iteration, link);
             }
             SamplerKind::Metropolis => {
                 let kernel = MetropolisKernel::new(priors, n_topics, n_words);
-                self.sweep_with(&kernel, state, corpus, seed, iteration);
+                self.sweep_with(&kernel, state, corpus, seed, iteration, link);
             }
             SamplerKind::Sparse => {
                 let kernel = SparseKernel::new(priors, n_topics, n_words);
-                self.sweep_with(&kernel, state, corpus, seed, iteration);
+                self.sweep_with(&kernel, state, corpus, seed, iteration, link);
             }
             // `new` builds no driver for the reference sweep.
             SamplerKind::Reference => unreachable!("the reference sweep does not run on the block grid"),
@@ -356,8 +448,10 @@ impl ShardedSampler {
         corpus: &Corpus,
         seed: u64,
         iteration: u64,
+        mut link: Option<&mut dyn EpochLink>,
     ) {
         self.load(state, corpus);
+        let own = self.own.clone();
         let n_groups = self.shards.len();
         let n_threads = rayon::current_num_threads().max(1);
         let workspaces: Vec<Mutex<Option<Workspace<K::Scratch>>>> =
@@ -411,6 +505,7 @@ impl ShardedSampler {
             let mut blocks: Vec<Block<'_>> = shards
                 .iter()
                 .zip(topic_parts.drain(..))
+                .filter(|(shard, _)| own.contains(&shard.index))
                 .map(|(shard, topics)| {
                     let group = (shard.index + epoch) % n_groups;
                     Block {
@@ -457,16 +552,55 @@ impl ShardedSampler {
             } else {
                 blocks.into_par_iter().with_max_len(1).for_each(run_block);
             }
+            let mut changes = vec![0i64; state.n_topics];
             for slot in &workspaces {
                 if let Some(workspace) = slot.lock().expect("workspace lock").as_mut() {
-                    for (total, change) in state.topic_totals.iter_mut().zip(&mut workspace.totals_change) {
-                        *total = total
-                            .checked_add_signed(*change)
-                            .expect("topic totals stay non-negative");
+                    for (sum, change) in changes.iter_mut().zip(&mut workspace.totals_change) {
+                        *sum += *change;
                         *change = 0;
                     }
                 }
             }
+            if let Some(link) = link.as_deref_mut() {
+                link.sum_changes(&mut changes);
+            }
+            for (total, change) in state.topic_totals.iter_mut().zip(&changes) {
+                *total = total
+                    .checked_add_signed(*change)
+                    .expect("topic totals stay non-negative");
+            }
+            if let Some(link) = link.as_deref_mut()
+                && own.len() < n_groups
+            {
+                // The ring: the group shard `own.start` used goes to the
+                // previous rank, whose last shard uses it next; the group
+                // this rank's last shard uses next comes from the next rank.
+                let send = (own.start + epoch) % n_groups;
+                let receive = (own.end + epoch) % n_groups;
+                let table = &mut state.word_topic;
+                let cells_of = |group: usize| {
+                    (
+                        table.cell_start(word_bounds[group]),
+                        table.cell_start(word_bounds[group + 1]),
+                    )
+                };
+                let (send_range, receive_range) = (cells_of(send), cells_of(receive));
+                let (send_cells, receive_cells) =
+                    disjoint(table.cells_mut(0..state.n_words), send_range, receive_range);
+                let (send_entries, receive_entries) = if with_entries {
+                    disjoint(
+                        entries,
+                        (slot_bounds[send], slot_bounds[send + 1]),
+                        (slot_bounds[receive], slot_bounds[receive + 1]),
+                    )
+                } else {
+                    (&[][..], &mut [][..])
+                };
+                link.pass_group(send_cells, send_entries, receive_cells, receive_entries);
+            }
+        }
+        if link.is_some() {
+            self.entries_current = true;
         }
         self.store(state, corpus);
     }
@@ -487,12 +621,14 @@ impl ShardedSampler {
         }
         let local = &self.local;
         let offsets = &corpus.offsets;
+        let own = self.own.clone();
         split_by(
             &mut state.assignments,
             self.shards.iter().map(|shard| shard.tokens.end),
         )
         .into_par_iter()
         .zip(&self.shards)
+        .filter(|(_, shard)| own.contains(&shard.index))
         .for_each(|(topics, shard)| {
             let first = shard.tokens.start;
             let mut corpus_order: Vec<Topic> = Vec::new();
@@ -505,9 +641,11 @@ impl ShardedSampler {
                 }
             }
         });
-        if self.entries.is_empty() {
+        if self.entries.is_empty() || self.entries_current {
             return;
         }
+        // Documents of shards not sampled here stay in corpus order.
+        let own_docs = self.own_docs();
         let n_groups = self.shards.len();
         let stride = n_groups + 1;
         let (word_bounds, word_first, doc_groups) = (&self.word_bounds, &self.word_first, &self.doc_groups);
@@ -526,10 +664,12 @@ impl ShardedSampler {
                     let doc_start = offsets[doc] as usize;
                     let run = doc_groups[doc * stride + group] as usize
                         ..doc_groups[doc * stride + group + 1] as usize;
+                    let sampler_order = own_docs.contains(&doc);
                     for position in run {
-                        let word = tokens[doc_start + local.get(position)] as usize;
+                        let corpus_position = doc_start + local.get(position);
+                        let word = tokens[corpus_position] as usize;
                         let slot = &mut next[word - words.start];
-                        entries[*slot] = topics[position];
+                        entries[*slot] = topics[if sampler_order { position } else { corpus_position }];
                         *slot += 1;
                     }
                 }
@@ -540,12 +680,14 @@ impl ShardedSampler {
     fn store(&self, state: &mut CountState, corpus: &Corpus) {
         let local = &self.local;
         let offsets = &corpus.offsets;
+        let own = self.own.clone();
         split_by(
             &mut state.assignments,
             self.shards.iter().map(|shard| shard.tokens.end),
         )
         .into_par_iter()
         .zip(&self.shards)
+        .filter(|(_, shard)| own.contains(&shard.index))
         .for_each(|(topics, shard)| {
             let first = shard.tokens.start;
             let mut sampler_order: Vec<Topic> = Vec::new();
@@ -558,6 +700,19 @@ impl ShardedSampler {
                 }
             }
         });
+    }
+}
+
+/// Two disjoint ranges `(start, end)` of `items`, the first to read and the
+/// second to write.
+fn disjoint<T>(items: &mut [T], read: (usize, usize), write: (usize, usize)) -> (&[T], &mut [T]) {
+    if read.1 <= write.0 {
+        let (head, tail) = items.split_at_mut(write.0);
+        (&head[read.0..read.1], &mut tail[..write.1 - write.0])
+    } else {
+        assert!(write.1 <= read.0, "the ranges overlap");
+        let (head, tail) = items.split_at_mut(read.0);
+        (&tail[..read.1 - read.0], &mut head[write.0..write.1])
     }
 }
 

@@ -714,7 +714,7 @@ mod tests {
         let sweeps = 200_000;
         let mut visits = vec![0.0; n_states];
         for sweep in 0..sweeps + 100 {
-            sampler.sweep_with(&kernel, &mut state, &corpus, 4, sweep as u64);
+            sampler.sweep_with(&kernel, &mut state, &corpus, 4, sweep as u64, None);
             if sweep >= 100 {
                 let index = state.assignments.iter().fold(0, |i, &t| i * 3 + t as usize);
                 visits[index] += 1.0 / sweeps as f64;
