@@ -4,7 +4,8 @@
 
 use std::path::Path;
 
-use themata::publish::names::{self, TopicNames};
+use themata::publish::names::TopicNames;
+use themata::publish::side_files::names_of;
 pub use themata::publish::side_files::{FolderContext, model_title};
 
 /// Reads what there is beside the model in `dir`, printing on stderr a
@@ -21,13 +22,10 @@ pub fn read_side_files(dir: &Path) -> FolderContext {
 /// root with a names file; a names file that cannot be read is a warning
 /// (the listing goes on without names).
 pub fn names_beside(dir: &Path) -> Option<TopicNames> {
-    match names::names_for_model_dir(dir) {
-        Ok(names) => (!names.is_empty()).then_some(names),
-        Err(err) => {
-            eprintln!("themata: warning: {err}; topics are shown without names");
-            None
-        }
-    }
+    names_of(dir).unwrap_or_else(|warning| {
+        eprintln!("themata: warning: {warning}");
+        None
+    })
 }
 
 /// Refuses an output path whose folder does not exist or that names a folder.

@@ -109,18 +109,6 @@ pub struct RootRun<'a> {
     pub quiet: bool,
 }
 
-/// Removes a file, when there is one.
-fn remove_file_if_any(path: &Path) -> Result<(), Failure> {
-    match std::fs::remove_file(path) {
-        Ok(()) => Ok(()),
-        Err(err) if err.kind() == std::io::ErrorKind::NotFound => Ok(()),
-        Err(err) => Err(Failure::system(anyhow::anyhow!(
-            "cannot remove {}: {err}",
-            path.display()
-        ))),
-    }
-}
-
 /// Appends `text` to the log of a committed run folder (lines written
 /// after the folder moved into place).
 fn append_log(dir: &Path, text: &str) -> Result<(), Failure> {
@@ -428,7 +416,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
 
     if !verdict.passed {
         let kept = staged.commit_as(&format!("{name}{REJECTED_SUFFIX}"))?;
-        remove_file_if_any(&root.checkpoint())?;
+        folder::remove_file_if_any(&root.checkpoint())?;
         eprintln!("themata: {}", verdict.reason);
         return Err(Failure::gate_failed(format!(
             "the quality gate refused run {name}; it is kept in {} and {} stays published",
@@ -437,7 +425,7 @@ pub fn run(job: RootRun<'_>) -> Result<(), Failure> {
         )));
     }
     let run_dir = staged.commit()?;
-    remove_file_if_any(&root.checkpoint())?;
+    folder::remove_file_if_any(&root.checkpoint())?;
     root.point_to(&name)?;
     let mut after = RunLog {
         lines: Vec::new(),

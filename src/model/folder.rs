@@ -88,12 +88,16 @@ pub fn write_model_folder(out: &Path, model: &Model, summary: &FitSummary) -> Re
 
 /// Removes the checkpoint beside the model folder `out`, if there is one.
 pub fn remove_checkpoint(out: &Path) -> Result<(), FormatError> {
-    let checkpoint = checkpoint_path(out);
-    match std::fs::remove_file(&checkpoint) {
+    remove_file_if_any(&checkpoint_path(out))
+}
+
+/// Removes a file, when there is one (a checkpoint left by a finished run).
+pub fn remove_file_if_any(path: &Path) -> Result<(), FormatError> {
+    match std::fs::remove_file(path) {
         Ok(()) => Ok(()),
         Err(err) if err.kind() == std::io::ErrorKind::NotFound => Ok(()),
         Err(source) => Err(FormatError::Io {
-            path: checkpoint,
+            path: path.to_path_buf(),
             source,
         }),
     }

@@ -27,15 +27,25 @@ pub struct FolderContext {
     pub warnings: Vec<String>,
 }
 
+/// The editors' topic names for the model in `dir`: `None` outside a run
+/// root or when no topic is named; a names file that cannot be read gives
+/// the warning to show (the caller goes on without names).
+pub fn names_of(dir: &Path) -> Result<Option<TopicNames>, String> {
+    match names::names_for_model_dir(dir) {
+        Ok(names) => Ok((!names.is_empty()).then_some(names)),
+        Err(err) => Err(format!("{err}; topics are shown without names")),
+    }
+}
+
 impl FolderContext {
     /// Reads what there is beside the model in `dir`; problems become
     /// `warnings`, in the order they were found.
     pub fn read(dir: &Path) -> FolderContext {
         let mut context = FolderContext::default();
         let mut warnings = Vec::new();
-        match names::names_for_model_dir(dir) {
-            Ok(names) => context.names = (!names.is_empty()).then_some(names),
-            Err(err) => warnings.push(format!("{err}; topics are shown without names")),
+        match names_of(dir) {
+            Ok(names) => context.names = names,
+            Err(warning) => warnings.push(warning),
         }
         match RunRecord::load(dir) {
             Ok(record) => context.record = record,
