@@ -35,8 +35,11 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
 fn fit(mut args: FitArgs, place: Option<ranks::Place>) -> Result<(), Failure> {
     let root = place.is_none_or(|place| place.is_root());
     args.quiet |= !root;
-    if place.is_some() && args.fit.threads.is_none() {
-        args.fit.threads = ranks::default_threads();
+    if place.is_some() {
+        if args.fit.threads.is_none() {
+            args.fit.threads = ranks::default_threads();
+        }
+        ranks::use_threads(settings::resolve_threads(args.fit.threads)?);
     }
     let start = match (&args.corpus, &args.continue_from, &args.resume) {
         (Some(corpus), None, None) => Start::Fresh(corpus.clone()),

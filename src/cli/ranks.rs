@@ -80,6 +80,9 @@ mod imp {
     pub fn default_threads() -> Option<usize> {
         None
     }
+
+    /// Nothing to set without MPI: each command builds its own pool.
+    pub fn use_threads(_threads: usize) {}
 }
 
 #[cfg(feature = "mpi")]
@@ -255,6 +258,18 @@ mod imp {
         Some((cores / local.max(1)).max(1))
     }
 
+    /// Makes the global pool this rank's workers, `threads` of them. MPI is
+    /// called from the main thread only, so a rank's sweeps run there with
+    /// the global pool as their workers; it must be built before anything
+    /// (reading the corpus, the random start) starts it with one worker per
+    /// core, or each rank would take every core. Later calls change nothing.
+    pub fn use_threads(threads: usize) {
+        // Building fails only when the pool exists already: see `sample_on`.
+        let _ = rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build_global();
+    }
+
     /// Runs the sweeps as this rank's share of the job; `None` outside a job.
     /// Checkpoints are written by rank 0 alone, from the whole state every
     /// rank gathered after the sweep, and all ranks wait for the write.
@@ -285,12 +300,17 @@ mod imp {
         let root = job.link.rank == 0;
         // MPI is called from this (the main) thread only, so the sweeps run
         // here with the global pool as their workers rather than inside a
-        // pool's `install` (which would move them to a worker thread).
-        // Building it fails only when it exists already, which is fine:
-        // the thread count never changes the result.
-        let _ = rayon::ThreadPoolBuilder::new()
-            .num_threads(threads)
-            .build_global();
+        // pool's `install` (which would move them to a worker thread). The
+        // command built that pool first thing (`use_threads`); the thread
+        // count never changes the result, only how much of the machine a
+        // rank takes, so a mismatch is a warning.
+        use_threads(threads);
+        if rayon::current_num_threads() != threads && root && !quiet {
+            eprintln!(
+                "themata: warning: rank 0 samples on {} worker threads, not the {threads} asked for",
+                rayon::current_num_threads()
+            );
+        }
         let mut progress = SweepProgress::new(model.target, quiet || !root);
         let before = job.link.traffic;
         let waited_before = job.link.waiting;
@@ -390,4 +410,4 @@ mod imp {
     }
 }
 
-pub use imp::{abort_on, default_threads, join, sample, summary};
+pub use imp::{abort_on, default_threads, join, sample, summary, use_threads};

@@ -28,17 +28,21 @@ pub fn run(args: RunArgs) -> Result<(), Failure> {
 fn run_config(mut args: RunArgs, place: Option<ranks::Place>) -> Result<(), Failure> {
     let root = place.is_none_or(|place| place.is_root());
     args.quiet |= !root;
-    if place.is_some() && args.fit.threads.is_none() {
-        args.fit.threads = ranks::default_threads();
-    }
     let config = RunConfig::load(&args.config)?;
     let input = config.input.overlay(args.input);
     let tokenizer = config.tokenizer.overlay(args.tokenizer);
     let vocabulary = config.vocabulary.overlay(args.vocabulary);
-    let fit = config.fit.overlay(args.fit);
+    let mut fit = config.fit.overlay(args.fit);
+    // A rank's default share of the cores; a config file's `threads` stands.
+    if place.is_some() && fit.threads.is_none() {
+        fit.threads = ranks::default_threads();
+    }
     let output = config.output.overlay(args.output);
     let listing = config.listing.overlay(args.listing).resolve()?;
     let plan = fit.resolve()?;
+    if place.is_some() {
+        ranks::use_threads(plan.threads);
+    }
     let inputs = input.paths.clone().unwrap_or_default();
     if inputs.is_empty() {
         return Err(Failure::bad_input(anyhow::anyhow!(
