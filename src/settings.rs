@@ -764,9 +764,10 @@ fn check_prior(
 fn default_shards_help() -> String {
     let per_shard = |kind| sampler::tokens_per_shard(kind).map_or_else(String::new, thousands);
     format!(
-        "one per {} tokens for exact, {} for metropolis and sparse, at most {MAX_AUTO_SHARDS}",
+        "one per {} tokens for exact, {} for metropolis and sparse, at least 2 from {} tokens, at most {MAX_AUTO_SHARDS}",
         per_shard(SamplerKind::Exact),
-        per_shard(SamplerKind::Metropolis)
+        per_shard(SamplerKind::Metropolis),
+        thousands(sampler::TWO_SHARDS_FROM)
     )
 }
 

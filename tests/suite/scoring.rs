@@ -133,6 +133,13 @@ fn sweep_recommends_the_generating_number_of_topics() {
             burn_in: 100,
             alpha: PriorSpec::Learn,
             beta: PriorSpec::Learn,
+            // One shard, as when this test was written: at K = 8 about one
+            // chain in eight stays in a mode with two topics merged (measured
+            // over seeds 1-8: one stuck chain with 1 shard, seed 3, and one
+            // with 2 shards, seed 1; perplexity 68-71 against 62.1-62.7), and
+            // with 2 shards seed 1 is that chain. The rule, not the luck of a
+            // chain, is what this test checks.
+            shards: Some(1),
             ..FitSettings::fixed(8, 300, 0.1, 0.01, 1)
         },
     };
@@ -149,14 +156,14 @@ fn sweep_recommends_the_generating_number_of_topics() {
         [1, 2, 3, 4, 5, 6]
     );
     assert!(finished.iter().all(|d| d.total == 6));
-    // The recommendation (8) lies inside the candidates, so no edge note.
-    assert_eq!(report.recommended_at_edge, None);
     for row in &report.rows {
         eprintln!(
             "K={} perplexity {:.2} (sd {:.2}) npmi {:.3} stability {:?}",
             row.topics, row.heldout_perplexity, row.perplexity_sd, row.npmi, row.stability
         );
     }
+    // The recommendation (8) lies inside the candidates, so no edge note.
+    assert_eq!(report.recommended_at_edge, None);
     assert_eq!(report.recommended_topics, 8, "{report:#?}");
     // Stability: the true K gives nearly the same topics for both seeds.
     let eight = report.rows.iter().find(|r| r.topics == 8).unwrap();

@@ -21,8 +21,8 @@ pub use counts::{RowLayout, RowsMut, WordTopicCounts};
 pub use metropolis::CYCLES_PER_TOKEN;
 pub use reference::{conditional, sweep_reference};
 pub use sharded::{
-    EpochLink, MAX_AUTO_SHARDS, MAX_TOKENS, ShardedSampler, default_shards, plan_shards, plan_word_groups,
-    tokens_per_shard,
+    EpochLink, MAX_AUTO_SHARDS, MAX_TOKENS, ShardedSampler, TWO_SHARDS_FROM, default_shards, plan_shards,
+    plan_word_groups, tokens_per_shard,
 };
 
 use rayon::prelude::*;
