@@ -27,15 +27,24 @@ pub(super) fn read_json_lines<R: BufRead>(
     let mut buffer: Vec<u8> = Vec::with_capacity(READ_BUFFER_BYTES);
     let mut line_number: u64 = 0;
     let mut fields = FieldsSeen::default();
+    // Set once a line ended without a line break: the read after it found
+    // the end of the input. A file still being written may have more by
+    // the next read, but the input ends at the first end seen (POSIX
+    // read(2) returns 0 there), so only this last line can be cut short.
+    let mut ended = false;
     loop {
         buffer.clear();
-        let line =
-            read_line_capped(&mut reader, &mut buffer, options.max_document_bytes).map_err(|source| {
-                ReadError::Io {
+        let line = if ended {
+            LineRead::End
+        } else {
+            let (line, at_end) = read_line_capped(&mut reader, &mut buffer, options.max_document_bytes)
+                .map_err(|source| ReadError::Io {
                     path: PathBuf::from(origin_name),
                     source,
-                }
-            })?;
+                })?;
+            ended = at_end;
+            line
+        };
         if line == LineRead::End {
             if fields.objects > 0 && !fields.text_field {
                 return Err(ReadError::MissingTextField {
@@ -81,12 +90,13 @@ enum LineRead {
 
 /// Reads one line into `buffer` (cleared by the caller), keeping at most
 /// `limit` bytes of it: the rest of a longer line is read and dropped, so
-/// memory stays bounded by the limit however long the line.
+/// memory stays bounded by the limit however long the line. The flag is
+/// set when the line had no line break because the input ended after it.
 fn read_line_capped<R: BufRead>(
     reader: &mut R,
     buffer: &mut Vec<u8>,
     limit: usize,
-) -> std::io::Result<LineRead> {
+) -> std::io::Result<(LineRead, bool)> {
     let mut seen = 0usize;
     loop {
         let available = match reader.fill_buf() {
@@ -96,9 +106,9 @@ fn read_line_capped<R: BufRead>(
         };
         if available.is_empty() {
             return Ok(match seen {
-                0 => LineRead::End,
-                _ if seen > limit => LineRead::TooLong,
-                _ => LineRead::Line,
+                0 => (LineRead::End, true),
+                _ if seen > limit => (LineRead::TooLong, true),
+                _ => (LineRead::Line, true),
             });
         }
         let (taken, complete) = match available.iter().position(|&byte| byte == b'\n') {
@@ -114,9 +124,9 @@ fn read_line_capped<R: BufRead>(
         reader.consume(taken);
         if complete {
             return Ok(if seen > limit {
-                LineRead::TooLong
+                (LineRead::TooLong, false)
             } else {
-                LineRead::Line
+                (LineRead::Line, false)
             });
         }
     }
