@@ -15,8 +15,19 @@ use super::{Failure, RecordOptions};
 use themata::model::folder::load_model;
 
 /// Documents folded in together (in parallel) before their lines are written;
-/// bounds memory whatever the length of the stream.
+/// with two batches in flight at most, bounds memory whatever the length
+/// of the stream.
 const BATCH: usize = 256;
+
+/// One placed document: its row and its printed line(s), or why it failed.
+type Placed = Result<(DocumentRow, Vec<u8>), score::ScoreError>;
+
+/// The placements of a batch, once its thread has finished.
+fn join_placing(placing: std::thread::ScopedJoinHandle<'_, Vec<Placed>>) -> Vec<Placed> {
+    placing
+        .join()
+        .unwrap_or_else(|panic| std::panic::resume_unwind(panic))
+}
 
 /// Output layouts of `assign`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -88,16 +99,15 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
     // The header is written with the first rows (or at the end), so that a
     // bad input stops the command before anything is printed.
     let mut header_due = args.format == AssignFormat::Tsv;
-    let mut batch: Vec<RawDocument> = Vec::with_capacity(BATCH);
     let mut totals = Totals::default();
     let mut failure: Option<Failure> = None;
     let mut diagnostics: Vec<Diagnostic> = Vec::new();
     let mut warnings: Vec<String> = Vec::new();
     // Each document is encoded, placed and printed into its own buffer in
-    // parallel; the buffers are written in input order.
-    let mut flush = |batch: &mut Vec<RawDocument>, totals: &mut Totals| -> Result<(), Failure> {
-        let first = totals.documents;
-        let placed: Vec<Result<(DocumentRow, Vec<u8>), score::ScoreError>> = pool.install(|| {
+    // parallel; `first` is the number of documents before the batch, which
+    // seeds each document's random stream.
+    let place_batch = |first: usize, batch: Vec<RawDocument>| -> Vec<Placed> {
+        pool.install(|| {
             use rayon::prelude::*;
             batch
                 .par_iter()
@@ -122,7 +132,10 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
                     Ok((row, text))
                 })
                 .collect()
-        });
+        })
+    };
+    // The buffers are written in input order.
+    let mut write_batch = |placed: Vec<Placed>, totals: &mut Totals| -> Result<(), Failure> {
         if header_due {
             view.write_tsv_header(&mut out).map_err(Failure::output)?;
             header_due = false;
@@ -139,31 +152,64 @@ pub fn run(args: AssignArgs) -> Result<(), Failure> {
                 );
             }
         }
-        batch.clear();
         Ok(())
     };
-    read::read_documents(
-        &args.inputs,
-        &options,
-        &mut diagnostics,
-        &mut warnings,
-        &mut |raw| {
-            if failure.is_some() {
-                return;
+    // While the pool places one batch, this thread reads the next: a full
+    // batch is handed to a placing thread, then the batch before it (two
+    // are in flight at most) is waited for and written.
+    let read_result = std::thread::scope(|scope| -> Result<(), Failure> {
+        let place_batch = &place_batch;
+        let mut in_flight: Option<std::thread::ScopedJoinHandle<'_, Vec<Placed>>> = None;
+        let mut queued = 0;
+        let mut batch: Vec<RawDocument> = Vec::with_capacity(BATCH);
+        let mut hand_over = |batch: Vec<RawDocument>, totals: &mut Totals| -> Result<(), Failure> {
+            let first = queued;
+            queued += batch.len();
+            let placing = scope.spawn(move || place_batch(first, batch));
+            match in_flight.replace(placing) {
+                Some(before) => write_batch(join_placing(before), totals),
+                None => Ok(()),
             }
-            batch.push(raw);
-            if batch.len() == BATCH
-                && let Err(err) = flush(&mut batch, &mut totals)
-            {
-                failure = Some(err);
-            }
-        },
-    )
-    .map_err(super::record_read_failure)?;
-    if let Some(err) = failure {
-        return Err(err);
-    }
-    flush(&mut batch, &mut totals)?;
+        };
+        let read = read::read_documents(
+            &args.inputs,
+            &options,
+            &mut diagnostics,
+            &mut warnings,
+            &mut |raw| {
+                if failure.is_some() {
+                    return;
+                }
+                batch.push(raw);
+                if batch.len() == BATCH
+                    && let Err(err) = hand_over(
+                        std::mem::replace(&mut batch, Vec::with_capacity(BATCH)),
+                        &mut totals,
+                    )
+                {
+                    failure = Some(err);
+                }
+            },
+        );
+        let last = if failure.is_none() && read.is_ok() {
+            hand_over(batch, &mut totals)
+        } else {
+            Ok(())
+        };
+        // Whatever stopped the reading, the batch still being placed is
+        // waited for; its lines are written only if all went well.
+        let pending = in_flight.take().map(join_placing);
+        read.map_err(super::record_read_failure)?;
+        if let Some(err) = failure.take() {
+            return Err(err);
+        }
+        last?;
+        match pending {
+            Some(placed) => write_batch(placed, &mut totals),
+            None => Ok(()),
+        }
+    });
+    read_result?;
     out.flush().map_err(Failure::output)?;
     for diagnostic in &diagnostics {
         eprintln!("themata: skipped: {diagnostic}");
