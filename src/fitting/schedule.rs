@@ -66,10 +66,17 @@ pub fn expected_cost(kind: SamplerKind, shape: &CorpusShape) -> f64 {
     let length = shape.mean_document_length();
     match kind {
         SamplerKind::Reference | SamplerKind::Exact => 50.0 + 0.7 * topics,
-        SamplerKind::Sparse => 140.0 + 0.35 * length.min(topics),
+        SamplerKind::Sparse => 140.0 + 0.35 * length.min(topics) + SPARSE_COST_PER_TOPIC * topics,
         SamplerKind::Metropolis => 170.0 * METROPOLIS_SWEEP_FACTOR,
     }
 }
+
+/// What each topic adds to the sparse kernel's cost per token: its sum tree
+/// over K topics outgrows the caches as K grows. Fitted to its measured
+/// excess over `140 + 0.35 min(L, K)` at L = 100: about 20 ns at K = 1000,
+/// 48 at K = 3000 (CPU time per token) and 122 at K = 10,000 (wall time
+/// per sweep against the MH kernel's, `themata bench --large-quality`).
+pub const SPARSE_COST_PER_TOPIC: f64 = 0.012;
 
 /// How many more sweeps than exact draws the Metropolis-Hastings kernel
 /// needs to reach a held-out perplexity: measured 1.1 to 2 (more at small
@@ -192,6 +199,10 @@ mod tests {
         assert_eq!(auto(20, 300), SamplerKind::Sparse);
         assert_eq!(auto(2000, 1000), SamplerKind::Metropolis);
         assert_eq!(auto(2000, 10_000), SamplerKind::Metropolis);
+        assert_eq!(auto(38, 3000), SamplerKind::Sparse);
+        // At K = 10,000 (L = 100, 9M tokens) MH reached sparse's 300-sweep
+        // held-out perplexity in 0.34 of its time (188.5 s against 548.8 s).
+        assert_eq!(auto(100, 10_000), SamplerKind::Metropolis);
         // A choice other than auto is kept whatever the shape.
         assert_eq!(
             SamplerChoice::Sparse.resolve(&shape(2000, 10)),
