@@ -59,7 +59,7 @@ pub struct BenchArgs {
     /// Measure only the warm start of nightly retraining: tonight's corpus is last night's plus 10% new documents from the same topics; sweeps and seconds to the cold start's log-likelihood, cold against warm
     #[arg(long, conflicts_with = "large")]
     pub warm_start: bool,
-    /// Run only time to quality at K = 10,000 on 10M synthetic tokens; the reference is too slow to run there, so the sparse kernel's 300th sweep stands in for its quality and 300 timed reference sweeps' median for its time (hours)
+    /// Run only time to quality at K = 10,000 on 10M synthetic tokens; the reference is too slow to run there, so the sparse kernel's 300th sweep stands in for its quality and 300 times the median of 2 timed reference sweeps for its time (about 20 minutes on two idle cores)
     #[arg(long, conflicts_with_all = ["quick", "large"])]
     pub large_quality: bool,
 }
