@@ -89,8 +89,9 @@ impl Failure {
         }
     }
 
-    /// A failure to write output: a closed pipe (`themata ... | head`) ends
-    /// the command quietly with success, anything else is a system failure.
+    /// A failure to write the standard output: a closed pipe (`themata ... |
+    /// head`) ends the command quietly with success, anything else is a
+    /// system failure that says what was being written.
     pub fn output(error: std::io::Error) -> Failure {
         if error.kind() == std::io::ErrorKind::BrokenPipe {
             Failure {
@@ -98,7 +99,7 @@ impl Failure {
                 error: error.into(),
             }
         } else {
-            Failure::system(error)
+            Failure::system(anyhow::Error::new(error).context("writing the standard output"))
         }
     }
 
@@ -309,10 +310,11 @@ pub fn record_read_failure(err: themata::ingest::read::ReadError) -> Failure {
 
 /// A closed pipe (`themata show | head`) is not an error.
 pub fn ignore_broken_pipe(err: std::io::Error) -> Result<(), Failure> {
-    if err.kind() == std::io::ErrorKind::BrokenPipe {
+    let failure = Failure::output(err);
+    if failure.is_quiet_stop() {
         Ok(())
     } else {
-        Err(Failure::system(err))
+        Err(failure)
     }
 }
 
