@@ -13,6 +13,7 @@ use themata::fitting::warm::{self, WarmStart};
 use themata::ingest::corpus::{self, BuildSettings, BuildSummary, Corpus, CorpusError};
 use themata::model::Model;
 use themata::model::folder;
+use themata::model::format::FormatError;
 use themata::model::format::StagedFolder;
 use themata::model::summary::FitSummary;
 use themata::publish::names::TopicNames;
@@ -158,17 +159,7 @@ pub fn sample(
     let mut checkpoint_error = None;
     let timing = pool.install(|| {
         fit::run_to_target(model, &mut |event| progress.update(event), &mut |model| {
-            let Some((every, path)) = &checkpoint else {
-                return ControlFlow::Continue(());
-            };
-            if model.iterations_done.is_multiple_of(*every)
-                && model.iterations_done < model.target
-                && let Err(err) = model.save(path)
-            {
-                checkpoint_error = Some(err);
-                return ControlFlow::Break(());
-            }
-            ControlFlow::Continue(())
+            checkpoint_if_due(model, &checkpoint, &mut checkpoint_error)
         })
     });
     progress.finish();
@@ -176,6 +167,28 @@ pub fn sample(
         Some(err) => Err(Failure::system(err)),
         None => Ok(timing?),
     }
+}
+
+/// After a sweep: writes the checkpoint when one is due (every `every`
+/// sweeps, never after the last, which the model folder gets), atomically,
+/// so a run killed meanwhile leaves the previous one. A failed write is kept
+/// in `failed` and stops the run.
+pub fn checkpoint_if_due(
+    model: &Model,
+    checkpoint: &Option<(u64, PathBuf)>,
+    failed: &mut Option<FormatError>,
+) -> ControlFlow<()> {
+    let Some((every, path)) = checkpoint else {
+        return ControlFlow::Continue(());
+    };
+    if model.iterations_done.is_multiple_of(*every)
+        && model.iterations_done < model.target
+        && let Err(err) = model.save(path)
+    {
+        *failed = Some(err);
+        return ControlFlow::Break(());
+    }
+    ControlFlow::Continue(())
 }
 
 /// Splits off the `--holdout` documents (none when the fraction is 0).

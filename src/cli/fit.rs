@@ -24,12 +24,7 @@ enum Start {
 /// Runs `themata fit`; under an MPI launcher (with the `mpi` feature), as
 /// one rank of the job: every rank fits, rank 0 alone writes and prints.
 pub fn run(args: FitArgs) -> Result<(), Failure> {
-    let place = ranks::join()?;
-    let result = fit(args, place);
-    if let Err(failure) = &result {
-        ranks::abort_on(failure);
-    }
-    result
+    ranks::as_rank(|place| fit(args, place))
 }
 
 fn fit(mut args: FitArgs, place: Option<ranks::Place>) -> Result<(), Failure> {

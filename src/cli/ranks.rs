@@ -37,6 +37,16 @@ impl Place {
     }
 }
 
+/// Runs a command as this process's part of the job: joins it (`None`
+/// outside a launcher) and, if the command fails, stops the other ranks.
+pub fn as_rank(command: impl FnOnce(Option<Place>) -> Result<(), Failure>) -> Result<(), Failure> {
+    let result = command(join()?);
+    if let Err(failure) = &result {
+        abort_on(failure);
+    }
+    result
+}
+
 #[cfg(not(feature = "mpi"))]
 mod imp {
     use super::*;
@@ -104,6 +114,7 @@ mod imp {
     use themata::model::Model;
     use themata::model::summary::RanksSummary;
 
+    use crate::cli::common::checkpoint_if_due;
     use crate::cli::progress::SweepProgress;
 
     /// The job's communicator and what this rank sent.
@@ -292,11 +303,7 @@ mod imp {
         checkpoint: &Option<(u64, PathBuf)>,
         quiet: bool,
     ) -> Result<FitTiming, Failure> {
-        if matches!(checkpoint, Some((0, _))) {
-            return Err(Failure::bad_input(anyhow::anyhow!(
-                "--checkpoint-every must be at least 1"
-            )));
-        }
+        // `common::sample`, the one caller, has refused `--checkpoint-every 0`.
         let root = job.link.rank == 0;
         // MPI is called from this (the main) thread only, so the sweeps run
         // here with the global pool as their workers rather than inside a
@@ -326,21 +333,12 @@ mod imp {
                 &mut engine,
                 &mut |event| progress.update(event),
                 &mut |model| {
-                    let Some((every, path)) = checkpoint else {
-                        return ControlFlow::Continue(());
-                    };
                     // Every rank gathered the whole state after this sweep
-                    // (`RankEngine::settle`); the one file is written
-                    // atomically, so a job killed meanwhile leaves the last one.
-                    if root
-                        && model.iterations_done.is_multiple_of(*every)
-                        && model.iterations_done < model.target
-                        && let Err(err) = model.save(path)
-                    {
-                        checkpoint_error = Some(err);
-                        return ControlFlow::Break(());
+                    // (`RankEngine::settle`); rank 0 alone writes the one file.
+                    if !root {
+                        return ControlFlow::Continue(());
                     }
-                    ControlFlow::Continue(())
+                    checkpoint_if_due(model, checkpoint, &mut checkpoint_error)
                 },
             )
         };

@@ -17,12 +17,7 @@ use super::{Failure, RunArgs, ranks};
 /// one rank of the job: every rank builds the corpus and fits, rank 0 alone
 /// writes the output folder and prints. Run roots are refused there.
 pub fn run(args: RunArgs) -> Result<(), Failure> {
-    let place = ranks::join()?;
-    let result = run_config(args, place);
-    if let Err(failure) = &result {
-        ranks::abort_on(failure);
-    }
-    result
+    ranks::as_rank(|place| run_config(args, place))
 }
 
 fn run_config(mut args: RunArgs, place: Option<ranks::Place>) -> Result<(), Failure> {
