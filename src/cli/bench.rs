@@ -20,7 +20,7 @@ use super::Failure;
 /// Arguments of `themata bench`.
 #[derive(clap::Args, Debug)]
 #[command(
-    after_help = "Synthetic corpora are drawn from the LDA generative process (Zipf-like word frequencies, documents of about 100 tokens, alpha = 10/K, beta = 0.01) with fixed seeds; every sampler samples with those priors. Each sampler runs on the same corpus from the same start; sweeps alternate between samplers, and every throughput figure is a median over sweeps (ratios are medians of back-to-back pairs), because shared machines are noisy. Time to quality holds out 10% of the documents, runs the reference for 300 sweeps on one thread and each fast sampler on --threads until it reaches the reference's final held-out perplexity (document completion). The full run takes one to two hours on two cores, more with --real-corpus."
+    after_help = "Synthetic corpora are drawn from the LDA generative process (Zipf-like word frequencies, documents of about 100 tokens, alpha = 10/K, beta = 0.01) with fixed seeds; every sampler samples with those priors. Each sampler runs on the same corpus from the same start; sweeps alternate between samplers, and every throughput figure is a median over sweeps (ratios are medians of back-to-back pairs), because shared machines are noisy. Time to quality holds out 10% of the documents, runs the reference for 300 sweeps on one thread and each fast sampler on --threads until it reaches the reference's final held-out perplexity (document completion); every sampler runs --quality-chains chains from the same random starts, and perplexities and times are means over the chains, because chains spread more than the samplers differ. The full run takes one to two hours on two cores, more with --real-corpus."
 )]
 pub struct BenchArgs {
     /// Small corpora that finish in seconds: checks that everything runs, measures little
@@ -44,6 +44,9 @@ pub struct BenchArgs {
     /// Tokens of the synthetic corpora of the time-to-quality comparisons, and the most the real-text corpus is cut to (every n-th document)
     #[arg(long, value_name = "N", default_value_t = 1_000_000)]
     pub quality_tokens: usize,
+    /// Independent chains of every sampler in the time-to-quality comparisons (each from its own random start); the target and the times are means over them
+    #[arg(long, value_name = "N", default_value_t = 3)]
+    pub quality_chains: usize,
     /// A corpus file of real text for the time-to-quality comparisons too (benches/debian-descriptions.sh prepares one)
     #[arg(long, value_name = "FILE")]
     pub real_corpus: Option<PathBuf>,
@@ -69,6 +72,11 @@ pub fn run(args: BenchArgs) -> Result<(), Failure> {
     if args.threads == 0 {
         return Err(Failure::bad_input(anyhow::anyhow!(
             "--threads must be at least 1"
+        )));
+    }
+    if args.quality_chains == 0 {
+        return Err(Failure::bad_input(anyhow::anyhow!(
+            "--quality-chains must be at least 1"
         )));
     }
     if args.quality_tokens < 10_000 {
@@ -248,6 +256,7 @@ fn measure_and_print(
         for (label, corpus, topics) in &corpora {
             for &k in topics {
                 let mut settings = QualitySettings::standard(k, args.threads);
+                settings.chains = args.quality_chains;
                 if args.quick {
                     settings.reference_sweeps = 20;
                     settings.reference_every = 5;
@@ -263,7 +272,8 @@ fn measure_and_print(
         match real {
             Some(corpus) if !args.quick => {
                 for &k in &args.quality_topics {
-                    let settings = QualitySettings::standard(k, args.threads);
+                    let mut settings = QualitySettings::standard(k, args.threads);
+                    settings.chains = args.quality_chains;
                     let run = bench::time_to_quality("real text", corpus, &settings, progress);
                     clear_progress(show_progress);
                     print_quality(out, &run)?;
@@ -311,6 +321,8 @@ fn measure_large_quality(
     settings.heldout_tokens = 5_000;
     settings.samplers = vec![SamplerKind::Metropolis];
     settings.stand_in = Some((SamplerKind::Sparse, 2));
+    // One chain: three would take an hour.
+    settings.chains = 1;
     let run = bench::time_to_quality("synthetic", &corpus, &settings, progress);
     clear_progress(show_progress);
     print_quality(out, &run)?;
@@ -426,6 +438,17 @@ fn perplexity_at(trace: &QualityTrace, seconds: f64) -> String {
     }
 }
 
+/// ` (mean of N chains: a / b / c)` for several chains, nothing for one.
+fn chains_said(trace: &QualityTrace) -> String {
+    match trace.chain_perplexities.len() {
+        0 | 1 => String::new(),
+        n => format!(
+            " (mean of {n} chains: {})",
+            bench::chain_list(&trace.chain_perplexities)
+        ),
+    }
+}
+
 fn print_quality(out: &mut impl Write, run: &QualityRun) -> io::Result<()> {
     let settings = &run.settings;
     writeln!(
@@ -443,19 +466,23 @@ fn print_quality(out: &mut impl Write, run: &QualityRun) -> io::Result<()> {
     match settings.stand_in {
         Some((kind, timed_sweeps)) => writeln!(
             out,
-            "target: held-out perplexity {:.2}, that of {} (exact draws, the reference's conditional) after {} sweeps on {} threads; the reference's time for {} sweeps is estimated as {:.0} s from the median of {} timed sweeps",
+            "target: held-out perplexity {:.2}, that of {} (exact draws, the reference's conditional) after {} sweeps on {} threads{}; the reference's time for {} sweeps is estimated as {:.0} s from the median of {} timed sweeps",
             run.target,
             kind.name(),
             settings.reference_sweeps,
             run.reference.threads,
+            chains_said(&run.reference),
             settings.reference_sweeps,
             run.reference_seconds,
             timed_sweeps
         )?,
         None => writeln!(
             out,
-            "target: the reference's held-out perplexity after {} sweeps, {:.2}, reached in {:.1} s on one thread",
-            settings.reference_sweeps, run.target, run.reference_seconds
+            "target: the reference's held-out perplexity after {} sweeps, {:.2}{}, reached in {:.1} s on one thread",
+            settings.reference_sweeps,
+            run.target,
+            chains_said(&run.reference),
+            run.reference_seconds
         )?,
     }
     write!(out, "{:<12} {:>3} {:>6} ", "sampler", "thr", "shards")?;
@@ -464,7 +491,7 @@ fn print_quality(out: &mut impl Write, run: &QualityRun) -> io::Result<()> {
     }
     writeln!(
         out,
-        "   {:>24}  {:>6}  {:>6}",
+        "   {:>24}  {:>6}  {:>6}  chains",
         "time to target", "share", "paired"
     )?;
     let traces = std::iter::once(&run.reference).chain(&run.fast);
@@ -489,7 +516,7 @@ fn print_quality(out: &mut impl Write, run: &QualityRun) -> io::Result<()> {
             continue;
         }
         match trace.reached {
-            Some(point) => writeln!(
+            Some(point) => write!(
                 out,
                 "   {:>24}  {:>6.3}  {:>6}",
                 format!("{:.1} s ({} sweeps)", point.seconds, point.sweep),
@@ -497,21 +524,23 @@ fn print_quality(out: &mut impl Write, run: &QualityRun) -> io::Result<()> {
                 run.paired_time_ratio(trace)
                     .map_or_else(String::new, |ratio| format!("{ratio:.3}"))
             )?,
-            None => writeln!(
+            None => write!(
                 out,
-                "   {:>24}  {:>6}",
+                "   {:>24}  {:>6}  {:>6}",
                 format!(
                     "not in {:.0} s ({} sweeps)",
                     trace.points.last().map_or(0.0, |p| p.seconds),
                     trace.points.last().map_or(0, |p| p.sweep)
                 ),
+                "",
                 ""
             )?,
         }
+        writeln!(out, "  {}", bench::chain_list(&trace.chain_perplexities))?;
     }
     writeln!(
         out,
-        "(columns: held-out perplexity after that share of the reference's time; share = time to target / the reference's time; paired = the same against the pace of reference sweeps timed while that sampler ran)"
+        "(columns: held-out perplexity after that share of the reference's time; share = time to target / the reference's time; paired = the same against the pace of reference sweeps timed while that sampler ran; chains = each chain's perplexity at the target or the last measurement; perplexities and times are means over the chains)"
     )?;
     if let Some(load) = load_average() {
         writeln!(out, "load average at the end (1, 5, 15 minutes): {load}")?;

@@ -307,6 +307,13 @@ pub struct QualitySettings {
     pub time_cap: f64,
     /// Threads of the fast samplers (the reference runs on one).
     pub threads: usize,
+    /// Independent chains of every sampler, each from its own random start
+    /// with its own random stream. Held-out perplexity at the same sweep
+    /// spreads by about 10% from chain to chain (see the README), more than
+    /// the kernels differ, so the target and every curve are means over
+    /// chains: the target is the reference's expected perplexity after its
+    /// sweeps, not one draw of it.
+    pub chains: usize,
     /// The fast samplers compared.
     pub samplers: Vec<SamplerKind>,
     /// When set, the reference is too slow to run: this exact-draw kernel's
@@ -332,17 +339,18 @@ impl QualitySettings {
             },
             time_cap: 0.3,
             threads,
+            chains: 3,
             samplers: FAST_SAMPLERS.to_vec(),
             stand_in: None,
         }
     }
 }
 
-/// Held-out perplexity after some sweeping.
+/// Held-out perplexity after some sweeping, as means over the chains.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct QualityPoint {
     pub sweep: usize,
-    /// Seconds of sweeping so far.
+    /// Seconds of sweeping so far (each chain's own time, averaged).
     pub seconds: f64,
     pub perplexity: f64,
 }
@@ -357,6 +365,8 @@ pub struct QualityTrace {
     pub points: Vec<QualityPoint>,
     /// The first point at or below the target perplexity.
     pub reached: Option<QualityPoint>,
+    /// Each chain's perplexity at `reached` (or at the last point).
+    pub chain_perplexities: Vec<f64>,
     /// Seconds of reference sweeps timed while this sampler ran, one
     /// between every few of its measurements, on the same machine at the
     /// same time (empty for the reference).
@@ -379,7 +389,7 @@ pub struct QualityRun {
     /// The reference's seconds for all its sweeps: measured, or estimated
     /// from timed sweeps when a stand-in ran.
     pub reference_seconds: f64,
-    /// The reference's perplexity after its sweeps: the target.
+    /// The reference's perplexity after its sweeps (the mean over chains): the target.
     pub target: f64,
     pub fast: Vec<QualityTrace>,
 }
@@ -476,13 +486,120 @@ fn fast_measures_after(sweep: usize) -> bool {
     }
 }
 
+/// The mean of some values (0 for none).
+fn mean(values: &[f64]) -> f64 {
+    if values.is_empty() {
+        0.0
+    } else {
+        values.iter().sum::<f64>() / values.len() as f64
+    }
+}
+
+/// One chain of a time-to-quality comparison: its state, the engine that
+/// sweeps it (none for the reference sweep), its random stream and its
+/// seconds of sweeping so far.
+struct QualityChain {
+    state: CountState,
+    engine: Option<ShardedSampler>,
+    rng: Xoshiro256PlusPlus,
+    seed: u64,
+    seconds: f64,
+}
+
+impl QualityChain {
+    /// Chain `index` of `kind`, from `start`: its own sweep seed, and for
+    /// the reference its own random stream (2, 4, 6, ...; the starts use 1, 3, 5, ...).
+    fn new(train: &Corpus, kind: SamplerKind, start: &CountState, index: usize) -> QualityChain {
+        QualityChain {
+            state: start.clone(),
+            engine: (kind != SamplerKind::Reference).then(|| engine(train, kind)),
+            rng: Xoshiro256PlusPlus::seed_from_u64(2 + 2 * index as u64),
+            seed: 7 + index as u64,
+            seconds: 0.0,
+        }
+    }
+
+    /// Sweeps once (sweep number `sweep`), timing the sweep.
+    fn sweep(&mut self, train: &Corpus, priors: &Priors, pool: &rayon::ThreadPool, sweep: usize) {
+        let QualityChain {
+            state,
+            engine,
+            rng,
+            seed,
+            seconds,
+        } = self;
+        *seconds += match engine {
+            Some(engine) => {
+                timed(|| pool.install(|| engine.sweep(state, train, priors, *seed, sweep as u64)))
+            }
+            None => timed(|| sampler::sweep_reference(state, train, priors, rng)),
+        };
+    }
+}
+
+/// Sweeps `chains` in step, one sweep of each at a time, measuring their
+/// held-out perplexity after the sweeps `measure` names, until `stop` says
+/// so after a measurement (given the point, means over the chains) or
+/// `last_sweep` is done. Returns the points and each chain's perplexity at
+/// the last one.
+#[allow(clippy::too_many_arguments)]
+fn run_chains(
+    chains: &mut [QualityChain],
+    train: &Corpus,
+    priors: &Priors,
+    scorer: &mut Scorer,
+    pool: &rayon::ThreadPool,
+    measure: &dyn Fn(usize, f64) -> bool,
+    stop: &mut dyn FnMut(&QualityPoint) -> bool,
+    last_sweep: Option<usize>,
+) -> (Vec<QualityPoint>, Vec<f64>) {
+    let mut points = Vec::new();
+    let mut each = Vec::new();
+    let mut sweep = 0;
+    while last_sweep.is_none_or(|last| sweep < last) {
+        sweep += 1;
+        for chain in chains.iter_mut() {
+            chain.sweep(train, priors, pool, sweep);
+        }
+        let seconds = mean(&chains.iter().map(|chain| chain.seconds).collect::<Vec<_>>());
+        if !(measure(sweep, seconds) || last_sweep == Some(sweep)) {
+            continue;
+        }
+        each = chains
+            .iter_mut()
+            .map(|chain| pool.install(|| scorer.perplexity(&mut chain.state)))
+            .collect();
+        let point = QualityPoint {
+            sweep,
+            seconds,
+            perplexity: mean(&each),
+        };
+        points.push(point);
+        if stop(&point) {
+            break;
+        }
+    }
+    (points, each)
+}
+
+/// The chains' perplexities as `a / b / c`, one decimal each.
+pub fn chain_list(perplexities: &[f64]) -> String {
+    perplexities
+        .iter()
+        .map(|value| format!("{value:.1}"))
+        .collect::<Vec<_>>()
+        .join(" / ")
+}
+
 /// Time to quality on `corpus`: a share of its documents is held out; the
-/// reference sweeps the rest from a random start on one thread, its
-/// held-out perplexity measured every few sweeps; its perplexity after its
-/// last sweep is the target; then each fast sampler sweeps from the same
-/// start on `threads` threads until its perplexity is at or below the
-/// target or it has swept for `time_cap` of the reference's time. While a
-/// fast sampler runs, a reference sweep is timed between every few of its
+/// reference sweeps the rest on one thread in `settings.chains` chains,
+/// each from its own random start, their held-out perplexity measured every
+/// few sweeps; the mean of their perplexities after the last sweep is the
+/// target; then each fast sampler sweeps as many chains from the same
+/// starts on `threads` threads until their mean perplexity is at or below
+/// the target or they have swept for `time_cap` of the reference's time
+/// (times are each chain's own, averaged over the chains). While a fast
+/// sampler runs, a reference sweep is timed between every few of its
 /// measurements, so that its time can also be compared with the
 /// reference's pace on the machine as it was then.
 pub fn time_to_quality(
@@ -507,52 +624,59 @@ pub fn time_to_quality(
     let priors = priors_for(n_topics);
     let shape = CorpusShape::of(&train, n_topics);
     let auto = SamplerChoice::Auto.resolve(&shape);
-    let start = CountState::random(&train, n_topics, &mut Xoshiro256PlusPlus::seed_from_u64(1));
-    let mut scorer = Scorer::new(&train, &start, &priors, documents, settings.fold_in);
+    let starts: Vec<CountState> = (0..settings.chains.max(1))
+        .map(|index| {
+            CountState::random(
+                &train,
+                n_topics,
+                &mut Xoshiro256PlusPlus::seed_from_u64(1 + 2 * index as u64),
+            )
+        })
+        .collect();
+    let mut scorer = Scorer::new(&train, &starts[0], &priors, documents, settings.fold_in);
     let many = pool(settings.threads);
+    let n_chains = starts.len();
 
     // The reference, or the stand-in for its quality.
-    let mut reference_state = start.clone();
-    let mut reference_rng = Xoshiro256PlusPlus::seed_from_u64(2);
-    let mut points = Vec::new();
-    let mut seconds = 0.0;
-    let (reference_kind, reference_threads, mut stand_in_engine) = match settings.stand_in {
-        Some((kind, _)) => (kind, settings.threads, Some(engine(&train, kind))),
-        None => (SamplerKind::Reference, 1, None),
+    let (reference_kind, reference_threads) = match settings.stand_in {
+        Some((kind, _)) => (kind, settings.threads),
+        None => (SamplerKind::Reference, 1),
     };
-    for sweep in 1..=settings.reference_sweeps {
-        seconds += match &mut stand_in_engine {
-            Some(engine) => timed(|| {
-                many.install(|| engine.sweep(&mut reference_state, &train, &priors, 7, sweep as u64))
-            }),
-            None => {
-                timed(|| sampler::sweep_reference(&mut reference_state, &train, &priors, &mut reference_rng))
-            }
-        };
-        if sweep.is_multiple_of(settings.reference_every) || sweep == settings.reference_sweeps {
-            let perplexity = many.install(|| scorer.perplexity(&mut reference_state));
+    let mut chains: Vec<QualityChain> = (0..n_chains)
+        .map(|index| QualityChain::new(&train, reference_kind, &starts[index], index))
+        .collect();
+    let (points, reference_chains) = run_chains(
+        &mut chains,
+        &train,
+        &priors,
+        &mut scorer,
+        &many,
+        &|sweep, _| sweep.is_multiple_of(settings.reference_every),
+        &mut |point| {
             progress(&format!(
-                "{label} K = {n_topics}: {} sweep {sweep}: perplexity {perplexity:.2} after {seconds:.1} s",
-                reference_kind.name()
+                "{label} K = {n_topics}: {} sweep {}: perplexity {:.2} after {:.1} s (mean of {n_chains} chains)",
+                reference_kind.name(),
+                point.sweep,
+                point.perplexity,
+                point.seconds
             ));
-            points.push(QualityPoint {
-                sweep,
-                seconds,
-                perplexity,
-            });
-        }
-    }
+            false
+        },
+        Some(settings.reference_sweeps),
+    );
     let target = points.last().map_or(f64::INFINITY, |point| point.perplexity);
+    let seconds = points.last().map_or(0.0, |point| point.seconds);
+    let mut timing_state = chains[0].state.clone();
+    let mut timing_rng = Xoshiro256PlusPlus::seed_from_u64(2);
     let reference_seconds = match settings.stand_in {
         Some((_, timed_sweeps)) => {
-            let mut timing_state = start.clone();
             let sweeps: Vec<f64> = (0..timed_sweeps.max(1))
                 .map(|idx| {
                     progress(&format!(
                         "{label} K = {n_topics}: timing reference sweep {}",
                         idx + 1
                     ));
-                    timed(|| sampler::sweep_reference(&mut timing_state, &train, &priors, &mut reference_rng))
+                    timed(|| sampler::sweep_reference(&mut timing_state, &train, &priors, &mut timing_rng))
                 })
                 .collect();
             median(&sweeps) * settings.reference_sweeps as f64
@@ -562,11 +686,16 @@ pub fn time_to_quality(
     let reference = QualityTrace {
         sampler: reference_kind,
         threads: reference_threads,
-        shards: stand_in_engine.as_ref().map_or(1, |engine| engine.shards().len()),
+        shards: chains[0]
+            .engine
+            .as_ref()
+            .map_or(1, |engine| engine.shards().len()),
         reached: points.last().copied(),
+        chain_perplexities: reference_chains,
         points,
         paired_reference_sweeps: Vec::new(),
     };
+    drop(chains);
 
     // With a stand-in, the reference's time is an estimate far beyond what
     // is run; the fast samplers then stop at three times the stand-in's time.
@@ -579,46 +708,50 @@ pub fn time_to_quality(
         if settings.stand_in.is_some_and(|(stand_in, _)| stand_in == kind) {
             continue;
         }
-        let mut engine = engine(&train, kind);
-        let mut state = start.clone();
-        let mut timing_state = reference_state.clone();
-        let mut points = Vec::new();
+        let mut chains: Vec<QualityChain> = (0..n_chains)
+            .map(|index| QualityChain::new(&train, kind, &starts[index], index))
+            .collect();
         let mut paired = Vec::new();
-        let mut seconds = 0.0;
         let mut reached = None;
-        let mut sweep = 0;
-        while reached.is_none() && seconds < cap_seconds {
-            sweep += 1;
-            seconds += timed(|| many.install(|| engine.sweep(&mut state, &train, &priors, 7, sweep as u64)));
-            if !fast_measures_after(sweep) && seconds < cap_seconds {
-                continue;
-            }
-            let perplexity = many.install(|| scorer.perplexity(&mut state));
-            progress(&format!(
-                "{label} K = {n_topics}: {} sweep {sweep}: perplexity {perplexity:.2} after {seconds:.1} s (target {target:.2})",
-                kind.name()
-            ));
-            let point = QualityPoint {
-                sweep,
-                seconds,
-                perplexity,
-            };
-            points.push(point);
-            if perplexity <= target {
-                reached = Some(point);
-            }
-            if settings.stand_in.is_none() && (points.len() % 4 == 1 || reached.is_some()) {
-                paired.push(timed(|| {
-                    sampler::sweep_reference(&mut timing_state, &train, &priors, &mut reference_rng)
-                }));
-            }
-        }
+        let mut measured = 0;
+        let (points, chain_perplexities) = run_chains(
+            &mut chains,
+            &train,
+            &priors,
+            &mut scorer,
+            &many,
+            &|sweep, seconds| fast_measures_after(sweep) || seconds >= cap_seconds,
+            &mut |point| {
+                progress(&format!(
+                    "{label} K = {n_topics}: {} sweep {}: perplexity {:.2} after {:.1} s (mean of {n_chains} chains; target {target:.2})",
+                    kind.name(),
+                    point.sweep,
+                    point.perplexity,
+                    point.seconds
+                ));
+                measured += 1;
+                if point.perplexity <= target {
+                    reached = Some(*point);
+                }
+                if settings.stand_in.is_none() && (measured % 4 == 1 || reached.is_some()) {
+                    paired.push(timed(|| {
+                        sampler::sweep_reference(&mut timing_state, &train, &priors, &mut timing_rng)
+                    }));
+                }
+                reached.is_some() || point.seconds >= cap_seconds
+            },
+            None,
+        );
         fast.push(QualityTrace {
             sampler: kind,
             threads: settings.threads,
-            shards: engine.shards().len(),
+            shards: chains[0]
+                .engine
+                .as_ref()
+                .map_or(1, |engine| engine.shards().len()),
             points,
             reached,
+            chain_perplexities,
             paired_reference_sweeps: paired,
         });
     }
@@ -692,6 +825,47 @@ mod tests {
         assert_eq!(median(&[3.0, 1.0, 2.0]), 2.0);
         assert_eq!(median(&[4.0, 1.0, 3.0, 2.0]), 2.5);
         assert_eq!(median(&[]), 0.0);
+    }
+
+    #[test]
+    fn the_target_is_the_mean_over_the_reference_chains() {
+        // Source: common practice — the mean of independent chains estimates
+        // the expected perplexity; a fast sampler stops at its first mean at
+        // or below that target.
+        let case = Case {
+            tokens: 6000,
+            words: 400,
+            topics: 8,
+            sweeps: 0,
+        };
+        let mut settings = QualitySettings::standard(8, 2);
+        settings.reference_sweeps = 6;
+        settings.reference_every = 3;
+        settings.heldout_tokens = 600;
+        settings.chains = 3;
+        let run = time_to_quality("tiny", &corpus_of(&case), &settings, &mut |_| {});
+        let chains = &run.reference.chain_perplexities;
+        assert_eq!(chains.len(), 3);
+        assert!(chains.iter().all(|value| value.is_finite()));
+        let mean = chains.iter().sum::<f64>() / 3.0;
+        assert!(
+            (run.target - mean).abs() <= 1e-12 * mean,
+            "{} vs {mean}",
+            run.target
+        );
+        // The chains start apart, so they do not all give one value.
+        assert!(chains.iter().any(|&value| value != chains[0]), "{chains:?}");
+        assert_eq!(run.fast.len(), FAST_SAMPLERS.len());
+        for trace in &run.fast {
+            assert_eq!(trace.chain_perplexities.len(), 3);
+            let last = trace.points.last().expect("a measurement");
+            let mean = trace.chain_perplexities.iter().sum::<f64>() / 3.0;
+            assert!((last.perplexity - mean).abs() <= 1e-12 * mean);
+            if let Some(reached) = trace.reached {
+                assert!(reached.perplexity <= run.target);
+                assert_eq!(reached, *last);
+            }
+        }
     }
 
     #[test]
