@@ -335,29 +335,48 @@ fn regularized_incomplete_beta(a: f64, b: f64, x: f64, front: f64) -> f64 {
     incomplete_beta_pair(a, b, x, front).0
 }
 
-/// The continued fraction of `I_x(a, b)` (DLMF 8.17.22), modified Lentz.
+/// The continued fraction of `I_x(a, b)` (DLMF 8.17.22),
+/// `1 / (1 + d_1 / (1 + d_2 / (1 + ...)))`, by the fundamental recurrence
+/// of its convergents `A_n / B_n`: `A_n = A_{n-1} + d_n A_{n-2}`, and `B_n`
+/// likewise (Press et al., Numerical Recipes in C, 1st ed., section 6.3,
+/// renormalised there at every step). The recurrence needs no division;
+/// the convergent itself is one division per pair of terms, off the
+/// recurrence's dependency chain, where the modified Lentz method puts four
+/// on it. The pairs are rescaled when `B` leaves `[2^-500, 2^500]`, so they
+/// never overflow or underflow. Callers use it where it converges fast
+/// (`x < (a + 1) / (a + b + 2)`), where `1 + d_1 > 0`, so `B_n` does not
+/// pass through zero. It stops when a pair of terms changes the convergent
+/// by at most one unit in the last place, as Lentz's test does.
 fn continued_fraction(a: f64, b: f64, x: f64) -> f64 {
     const MAX_TERMS: u32 = 300;
-    let tiny = f64::MIN_POSITIVE / f64::EPSILON;
-    let guard = |value: f64| if value.abs() < tiny { tiny } else { value };
+    const LARGE: f64 = 3.273_390_607_896_142e150; // 2^500
+    const SMALL: f64 = 1.0 / LARGE;
     let (sum, plus_one, minus_one) = (a + b, a + 1.0, a - 1.0);
-    let mut c = 1.0;
-    let mut d = 1.0 / guard(1.0 - sum * x / plus_one);
-    let mut fraction = d;
+    // The first two convergents: 1 / 1 and 1 / (1 + d_1).
+    let (mut a_before, mut b_before) = (1.0, 1.0);
+    let (mut a_last, mut b_last) = (1.0, 1.0 - sum * x / plus_one);
+    let mut fraction = a_last / b_last;
     for m in 1..=MAX_TERMS {
         let m = f64::from(m);
         let twice = 2.0 * m;
         let even = m * (b - m) * x / ((minus_one + twice) * (a + twice));
-        d = 1.0 / guard(1.0 + even * d);
-        c = guard(1.0 + even / c);
-        fraction *= d * c;
         let odd = -(a + m) * (sum + m) * x / ((a + twice) * (plus_one + twice));
-        d = 1.0 / guard(1.0 + odd * d);
-        c = guard(1.0 + odd / c);
-        let step = d * c;
-        fraction *= step;
-        if (step - 1.0).abs() <= f64::EPSILON {
+        let (a_even, b_even) = (a_last + even * a_before, b_last + even * b_before);
+        (a_before, b_before) = (a_even, b_even);
+        (a_last, b_last) = (a_even + odd * a_last, b_even + odd * b_last);
+        let next = a_last / b_last;
+        let done = (next - fraction).abs() <= f64::EPSILON * next.abs();
+        fraction = next;
+        if done {
             break;
+        }
+        let size = b_last.abs();
+        if !(SMALL..=LARGE).contains(&size) {
+            let scale = 1.0 / size;
+            a_before *= scale;
+            b_before *= scale;
+            a_last *= scale;
+            b_last *= scale;
         }
     }
     fraction
