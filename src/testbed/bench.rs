@@ -309,8 +309,8 @@ pub struct QualitySettings {
     pub threads: usize,
     /// Independent chains of every sampler, each from its own random start
     /// with its own random stream. Held-out perplexity at the same sweep
-    /// spreads by about 10% from chain to chain (see the README), more than
-    /// the kernels differ, so the target and every curve are means over
+    /// spreads by a few percent from chain to chain (see the README), more
+    /// than the kernels differ, so the target and every curve are means over
     /// chains: the target is the reference's expected perplexity after its
     /// sweeps, not one draw of it.
     pub chains: usize,
@@ -495,6 +495,13 @@ fn mean(values: &[f64]) -> f64 {
     }
 }
 
+/// What every chain of a time-to-quality comparison sweeps with.
+struct ChainContext<'a> {
+    train: &'a Corpus,
+    priors: &'a Priors,
+    pool: &'a rayon::ThreadPool,
+}
+
 /// One chain of a time-to-quality comparison: its state, the engine that
 /// sweeps it (none for the reference sweep), its random stream and its
 /// seconds of sweeping so far.
@@ -519,8 +526,14 @@ impl QualityChain {
         }
     }
 
+    /// Shards of its engine (1 for the reference sweep).
+    fn shards(&self) -> usize {
+        self.engine.as_ref().map_or(1, |engine| engine.shards().len())
+    }
+
     /// Sweeps once (sweep number `sweep`), timing the sweep.
-    fn sweep(&mut self, train: &Corpus, priors: &Priors, pool: &rayon::ThreadPool, sweep: usize) {
+    fn sweep(&mut self, context: &ChainContext<'_>, sweep: usize) {
+        let ChainContext { train, priors, pool } = *context;
         let QualityChain {
             state,
             engine,
@@ -542,13 +555,10 @@ impl QualityChain {
 /// so after a measurement (given the point, means over the chains) or
 /// `last_sweep` is done. Returns the points and each chain's perplexity at
 /// the last one.
-#[allow(clippy::too_many_arguments)]
 fn run_chains(
     chains: &mut [QualityChain],
-    train: &Corpus,
-    priors: &Priors,
+    context: &ChainContext<'_>,
     scorer: &mut Scorer,
-    pool: &rayon::ThreadPool,
     measure: &dyn Fn(usize, f64) -> bool,
     stop: &mut dyn FnMut(&QualityPoint) -> bool,
     last_sweep: Option<usize>,
@@ -559,7 +569,7 @@ fn run_chains(
     while last_sweep.is_none_or(|last| sweep < last) {
         sweep += 1;
         for chain in chains.iter_mut() {
-            chain.sweep(train, priors, pool, sweep);
+            chain.sweep(context, sweep);
         }
         let seconds = mean(&chains.iter().map(|chain| chain.seconds).collect::<Vec<_>>());
         if !(measure(sweep, seconds) || last_sweep == Some(sweep)) {
@@ -567,7 +577,7 @@ fn run_chains(
         }
         each = chains
             .iter_mut()
-            .map(|chain| pool.install(|| scorer.perplexity(&mut chain.state)))
+            .map(|chain| context.pool.install(|| scorer.perplexity(&mut chain.state)))
             .collect();
         let point = QualityPoint {
             sweep,
@@ -636,6 +646,11 @@ pub fn time_to_quality(
     let mut scorer = Scorer::new(&train, &starts[0], &priors, documents, settings.fold_in);
     let many = pool(settings.threads);
     let n_chains = starts.len();
+    let context = ChainContext {
+        train: &train,
+        priors: &priors,
+        pool: &many,
+    };
 
     // The reference, or the stand-in for its quality.
     let (reference_kind, reference_threads) = match settings.stand_in {
@@ -647,10 +662,8 @@ pub fn time_to_quality(
         .collect();
     let (points, reference_chains) = run_chains(
         &mut chains,
-        &train,
-        &priors,
+        &context,
         &mut scorer,
-        &many,
         &|sweep, _| sweep.is_multiple_of(settings.reference_every),
         &mut |point| {
             progress(&format!(
@@ -686,10 +699,7 @@ pub fn time_to_quality(
     let reference = QualityTrace {
         sampler: reference_kind,
         threads: reference_threads,
-        shards: chains[0]
-            .engine
-            .as_ref()
-            .map_or(1, |engine| engine.shards().len()),
+        shards: chains[0].shards(),
         reached: points.last().copied(),
         chain_perplexities: reference_chains,
         points,
@@ -716,10 +726,8 @@ pub fn time_to_quality(
         let mut measured = 0;
         let (points, chain_perplexities) = run_chains(
             &mut chains,
-            &train,
-            &priors,
+            &context,
             &mut scorer,
-            &many,
             &|sweep, seconds| fast_measures_after(sweep) || seconds >= cap_seconds,
             &mut |point| {
                 progress(&format!(
@@ -745,10 +753,7 @@ pub fn time_to_quality(
         fast.push(QualityTrace {
             sampler: kind,
             threads: settings.threads,
-            shards: chains[0]
-                .engine
-                .as_ref()
-                .map_or(1, |engine| engine.shards().len()),
+            shards: chains[0].shards(),
             points,
             reached,
             chain_perplexities,
