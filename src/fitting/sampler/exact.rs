@@ -9,8 +9,8 @@
 //! per topic and recomputed for the two topics a token leaves and joins, and
 //! `c_k` is refreshed for those topics and for the topics of the document
 //! being sampled when it starts and ends. The K weights are then one
-//! multiply-add each, summed in blocks of eight so that the draw scans at
-//! most K/8 + 8 partial sums.
+//! multiply-add each, summed in blocks of eight so that the draw compares
+//! against at most K/8 + 8 cumulative sums, counting rather than branching.
 //!
 //! Sparse word rows are spread into K dense counters first, so the weights
 //! are always visited in topic order and the draw never depends on how a
@@ -38,6 +38,47 @@ fn tree_sum(w: &[f64; CHUNK]) -> f64 {
     ((w[0] + w[1]) + (w[2] + w[3])) + ((w[4] + w[5]) + (w[6] + w[7]))
 }
 
+/// The topic drawn by `u` (uniform in [0, 1)) from `weights` in chunks of
+/// `CHUNK` with their sums `chunk_sums`: the first topic whose cumulative
+/// weight exceeds `u` times the total, the total being the chunk sums added
+/// in order (`cumulative` is scratch of the chunks' length). The last chunk
+/// and the chunk's last topic take any excess from rounding.
+///
+/// Positions are found by counting the cumulative sums at or below the
+/// target rather than by subtracting weight after weight from it until it
+/// goes below the next, so there is no branch whose outcome is a coin toss:
+/// such a scan mispredicts its exit once per level, and each misprediction
+/// throws away the work begun on the next token. In exact arithmetic both
+/// find the same topic; in floating point they can differ only when the
+/// target falls within a few units in the last place of a boundary.
+#[inline(always)]
+fn draw(chunk_sums: &[f64], cumulative: &mut [f64], weights: &[f64], n_topics: usize, u: f64) -> Topic {
+    let n_chunks = chunk_sums.len();
+    let mut total = 0.0;
+    for (slot, &sum) in cumulative.iter_mut().zip(chunk_sums) {
+        total += sum;
+        *slot = total;
+    }
+    let target = u * total;
+    let chunk = count_at_or_below(&cumulative[..n_chunks - 1], target);
+    let target = target - if chunk == 0 { 0.0 } else { cumulative[chunk - 1] };
+    let first = chunk * CHUNK;
+    let last = (first + CHUNK).min(n_topics) - 1;
+    let mut within = 0.0;
+    let mut passed = 0;
+    for &weight in &weights[first..last] {
+        within += weight;
+        passed += usize::from(within <= target);
+    }
+    (first + passed) as Topic
+}
+
+/// How many of `bounds` (non-decreasing) are at or below `target`.
+#[inline(always)]
+fn count_at_or_below(bounds: &[f64], target: f64) -> usize {
+    bounds.iter().map(|&bound| usize::from(bound <= target)).sum()
+}
+
 /// The per-sweep constants of the exact kernel.
 pub struct ExactKernel<'a> {
     priors: &'a Priors,
@@ -58,6 +99,8 @@ pub struct ExactScratch {
     weights: Vec<f64>,
     /// Sums of `CHUNK` consecutive weights.
     chunk_sums: Vec<f64>,
+    /// The chunk sums added up in order (the draw's cumulative sums).
+    cumulative: Vec<f64>,
     /// Dense copy of a sparse word row (all zero between tokens).
     word_row: Vec<u32>,
     /// The topics the current document has used during this visit.
@@ -118,6 +161,7 @@ impl BlockKernel for ExactKernel<'_> {
         exact.coefficient.resize(n_topics, 0.0);
         exact.weights.resize(n_chunks * CHUNK, 0.0);
         exact.chunk_sums.resize(n_chunks, 0.0);
+        exact.cumulative.resize(n_chunks, 0.0);
         exact.word_row.resize(n_topics, 0);
         exact.doc_counts.resize(n_topics, 0);
         let ExactScratch {
@@ -126,12 +170,14 @@ impl BlockKernel for ExactKernel<'_> {
             coefficient,
             weights,
             chunk_sums,
+            cumulative,
             word_row,
             distinct,
         } = exact;
         // Plain slices, so that the hot loops need not reload vector headers.
         let (inverse_total, coefficient) = (inverse_total.as_mut_slice(), coefficient.as_mut_slice());
         let (weights, chunk_sums) = (weights.as_mut_slice(), chunk_sums.as_mut_slice());
+        let cumulative = cumulative.as_mut_slice();
         let (word_row, doc_counts) = (word_row.as_mut_slice(), doc_counts.as_mut_slice());
         // Weights past K stay zero: they pad the last chunk.
         weights.fill(0.0);
@@ -227,20 +273,7 @@ impl BlockKernel for ExactKernel<'_> {
                     }
                 }
                 rows.clear_dense(row, word_row);
-                let total: f64 = chunk_sums.iter().sum();
-                let mut target = rng.random::<f64>() * total;
-                let mut chunk = 0;
-                while chunk + 1 < n_chunks && target >= chunk_sums[chunk] {
-                    target -= chunk_sums[chunk];
-                    chunk += 1;
-                }
-                let last = (chunk * CHUNK + CHUNK).min(n_topics) - 1;
-                let mut new = chunk * CHUNK;
-                while new < last && target >= weights[new] {
-                    target -= weights[new];
-                    new += 1;
-                }
-                let new = new as Topic;
+                let new = draw(chunk_sums, cumulative, weights, n_topics, rng.random::<f64>());
 
                 rows.increment(row, new);
                 if doc_counts[new as usize] == 0 {
@@ -256,6 +289,84 @@ impl BlockKernel for ExactKernel<'_> {
                 doc_counts[topic] = 0;
                 coefficient[topic] = alpha[topic] * inverse_total[topic];
             }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::SeedableRng;
+
+    /// Chunk sums and padded weights of `weights`, as the kernel builds them.
+    fn chunked(weights: &[f64]) -> (Vec<f64>, Vec<f64>) {
+        let mut padded = weights.to_vec();
+        padded.resize(weights.len().div_ceil(CHUNK) * CHUNK, 0.0);
+        let sums = padded
+            .chunks_exact(CHUNK)
+            .map(|chunk| tree_sum(chunk.try_into().expect("a whole chunk")))
+            .collect();
+        (sums, padded)
+    }
+
+    #[test]
+    fn draw_is_the_inverse_of_the_cumulative_distribution() {
+        // Source: common practice — inverse-CDF sampling: the drawn index
+        // is the first whose cumulative weight exceeds u times the total.
+        // Small integer weights keep every sum exact in f64, so the counted
+        // draw must match the integer inverse CDF exactly, for K not a
+        // multiple of the chunk, below it, and with zero weights among them.
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(21);
+        for n_topics in [1, 2, 7, 8, 9, 16, 100, 1000] {
+            for _ in 0..20 {
+                let weights: Vec<f64> = (0..n_topics)
+                    .map(|_| f64::from(rng.random_range(0u32..4)))
+                    .collect();
+                let total: f64 = weights.iter().sum();
+                if total == 0.0 {
+                    continue;
+                }
+                let (sums, padded) = chunked(&weights);
+                let mut cumulative = vec![0.0; sums.len()];
+                for step in 0..200 {
+                    let u = f64::from(step) / 200.0;
+                    let target = u * total;
+                    let mut running = 0.0;
+                    let expected = weights
+                        .iter()
+                        .position(|&weight| {
+                            running += weight;
+                            running > target
+                        })
+                        .expect("target below the total");
+                    let drawn = draw(&sums, &mut cumulative, &padded, n_topics, u);
+                    assert_eq!(
+                        drawn as usize, expected,
+                        "K = {n_topics}, u = {u}, weights {weights:?}"
+                    );
+                    assert!(weights[expected] > 0.0, "a topic without weight was drawn");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn draw_at_the_largest_u_names_the_last_topic() {
+        // Source: common practice — the largest u below one,
+        // 1 - 2^-53, puts the target past every cumulative sum but the
+        // last, so the last topic is drawn (and never one past K).
+        for n_topics in [1, 3, 8, 13, 100] {
+            let weights = vec![0.1; n_topics];
+            let (sums, padded) = chunked(&weights);
+            let mut cumulative = vec![0.0; sums.len()];
+            let drawn = draw(
+                &sums,
+                &mut cumulative,
+                &padded,
+                n_topics,
+                1.0 - f64::EPSILON / 2.0,
+            );
+            assert_eq!(drawn as usize, n_topics - 1);
         }
     }
 }
