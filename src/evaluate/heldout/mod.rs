@@ -535,19 +535,22 @@ impl SparseChain {
         }
         let target = rng.random::<f64>() * total;
         let topic = if target < document_total {
+            // The first place whose running sum passes the target is the
+            // number of running sums at or below it: counted, not searched
+            // for with an early exit, whose branch would be a coin toss.
             let mut running = 0.0;
-            let mut chosen = None;
-            for (place, &weight) in weights.iter().enumerate() {
+            let mut passed = 0;
+            for &weight in weights.iter() {
                 running += weight;
-                if running > target {
-                    chosen = Some(place);
-                    break;
-                }
+                passed += usize::from(running <= target);
             }
             // The walk's sum can fall a rounding error short of the
             // total: take the last topic with weight.
-            let place =
-                chosen.unwrap_or_else(|| weights.iter().rposition(|&weight| weight > 0.0).unwrap_or(0));
+            let place = if passed < weights.len() {
+                passed
+            } else {
+                weights.iter().rposition(|&weight| weight > 0.0).unwrap_or(0)
+            };
             self.present[place]
         } else {
             let rest = target - document_total;
