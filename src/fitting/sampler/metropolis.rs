@@ -138,7 +138,7 @@ impl MetropolisKernel<'_> {
     /// repeats, but a token of a rare word misses the cache for its row and
     /// word list, which a run of a frequent word keeps warm; measured per
     /// token, blocks of rare words took about twice as long, so `n_w + df_w`.
-    pub fn word_cost(tokens: u64, documents: u64) -> u64 {
+    pub fn word_cost(tokens: u64, documents: u64, _shards: u64) -> u64 {
         documents + tokens
     }
 }

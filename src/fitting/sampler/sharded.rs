@@ -67,15 +67,25 @@ pub fn tokens_per_shard(kind: SamplerKind) -> Option<usize> {
 
 /// The expected cost of each word's tokens under the kernel of `kind`, by
 /// which word groups are balanced: the kernel's cost of a word with `n_w`
-/// tokens in `df_w` documents (tokens are ordered by word within a
-/// document, so a document's run of one word is contiguous).
-fn word_costs(kind: SamplerKind, corpus: &Corpus, word_tokens: &[u64]) -> Vec<u64> {
-    let mut doc_frequency = vec![0u64; word_tokens.len()];
-    let mut last_doc = vec![usize::MAX; word_tokens.len()];
-    for doc in 0..corpus.n_docs() {
-        for &word in corpus.doc_tokens(doc) {
-            if std::mem::replace(&mut last_doc[word as usize], doc) != doc {
-                doc_frequency[word as usize] += 1;
+/// tokens in `df_w` documents of `s_w` of the `shards` (tokens are ordered
+/// by word within a document, so a document's run of one word is
+/// contiguous; a word met in `s_w` shards is set up in `s_w` blocks).
+fn word_costs(kind: SamplerKind, corpus: &Corpus, word_tokens: &[u64], shards: &[Shard]) -> Vec<u64> {
+    let n_words = word_tokens.len();
+    let mut doc_frequency = vec![0u64; n_words];
+    let mut shard_frequency = vec![0u64; n_words];
+    let mut last_doc = vec![usize::MAX; n_words];
+    let mut last_shard = vec![usize::MAX; n_words];
+    for shard in shards {
+        for doc in shard.docs.clone() {
+            for &word in corpus.doc_tokens(doc) {
+                let word = word as usize;
+                if std::mem::replace(&mut last_doc[word], doc) != doc {
+                    doc_frequency[word] += 1;
+                    if std::mem::replace(&mut last_shard[word], shard.index) != shard.index {
+                        shard_frequency[word] += 1;
+                    }
+                }
             }
         }
     }
@@ -87,7 +97,8 @@ fn word_costs(kind: SamplerKind, corpus: &Corpus, word_tokens: &[u64]) -> Vec<u6
     word_tokens
         .iter()
         .zip(&doc_frequency)
-        .map(|(&tokens, &documents)| cost(tokens, documents))
+        .zip(&shard_frequency)
+        .map(|((&tokens, &documents), &shards)| cost(tokens, documents, shards))
         .collect()
 }
 
@@ -262,7 +273,7 @@ impl ShardedSampler {
         let shards = plan_shards(corpus, n_shards);
         let n_groups = shards.len();
         let word_tokens = super::word_token_counts(corpus);
-        let word_costs = word_costs(kind, corpus, &word_tokens);
+        let word_costs = word_costs(kind, corpus, &word_tokens, &shards);
         let word_bounds = plan_word_groups(&word_costs, n_groups);
         let mut group_of_word = vec![0u32; n_words];
         for (group, pair) in word_bounds.windows(2).enumerate() {
@@ -790,6 +801,42 @@ mod tests {
         assert_eq!(three.len(), 4);
         assert!(three.windows(2).all(|pair| pair[0] <= pair[1]));
         assert_eq!((three[0], three[3]), (0, 6));
+    }
+
+    #[test]
+    fn word_costs_count_documents_and_shards_of_each_word() {
+        // Source: common practice — document and shard frequencies counted
+        // by hand for a small corpus: word 0 ("a") is in every document of
+        // both shards, word 2 ("c") twice in one document of the second.
+        let vocabulary = Vocabulary::from_parts(
+            vec!["a".into(), "b".into(), "c".into()],
+            vec![1, 1, 1],
+            vec![1, 1, 1],
+        );
+        let docs = vec![vec![0, 1, 0], vec![0, 1], vec![0, 2, 2], vec![0]];
+        let corpus = Corpus::from_documents(vocabulary, docs);
+        let shards = plan_shards(&corpus, 2);
+        assert_eq!(shards.len(), 2);
+        assert_eq!((shards[0].docs.clone(), shards[1].docs.clone()), (0..2, 2..4));
+        let word_tokens = super::super::word_token_counts(&corpus);
+        assert_eq!(word_tokens, vec![5, 2, 2]);
+        // (tokens, documents, shards) per word: a (5, 4, 2), b (2, 2, 1), c (2, 1, 1).
+        let expected = |cost: fn(u64, u64, u64) -> u64| vec![cost(5, 4, 2), cost(2, 2, 1), cost(2, 1, 1)];
+        assert_eq!(
+            word_costs(SamplerKind::Sparse, &corpus, &word_tokens, &shards),
+            expected(SparseKernel::word_cost)
+        );
+        assert_eq!(
+            word_costs(SamplerKind::Metropolis, &corpus, &word_tokens, &shards),
+            expected(MetropolisKernel::word_cost)
+        );
+        assert_eq!(
+            word_costs(SamplerKind::Exact, &corpus, &word_tokens, &shards),
+            expected(ExactKernel::word_cost)
+        );
+        // The sparse kernel's set-up term: a word met in two shards costs
+        // more than the same tokens met in one.
+        assert!(SparseKernel::word_cost(5, 4, 2) > SparseKernel::word_cost(5, 4, 1));
     }
 
     #[test]
