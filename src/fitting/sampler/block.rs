@@ -21,6 +21,10 @@ pub trait BlockKernel: Sync {
     /// Whether the kernel reads the word-major entries (the driver then
     /// keeps their topics current).
     const USES_WORD_LIST: bool;
+    /// Whether the kernel reads each document's topic counts from
+    /// [`Block::doc_topics`] and keeps them current, when the driver has
+    /// room for them (see `sharded::doc_table_fits`).
+    const USES_DOC_TABLE: bool = false;
 
     /// Samples every token of `block` once. `topic_totals` holds the totals
     /// as of the start of the epoch; the kernel adds its own changes to it.
@@ -151,6 +155,10 @@ pub struct Block<'a> {
     pub words: Range<usize>,
     /// The shard's topics in sampler order, from position `shard.tokens.start`.
     pub topics: &'a mut [Topic],
+    /// The topic counts of the shard's documents, K per document from
+    /// `shard.docs.start`, when the kernel keeps them and they fit; empty
+    /// otherwise.
+    pub doc_topics: &'a mut [u16],
     /// Word group q's entries of the word-major list (each token's topic),
     /// from slot `first_slot`; empty for kernels that do not read the list.
     pub entries: &'a mut [Topic],

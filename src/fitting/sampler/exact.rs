@@ -8,7 +8,10 @@
 //! and `c_k` is kept up to date as counts change: `1 / (n_k + b0)` is kept
 //! per topic and recomputed for the two topics a token leaves and joins, and
 //! `c_k` is refreshed for those topics and for the topics of the document
-//! being sampled when it starts and ends. The K weights are then one
+//! being sampled when it starts and ends (or, when the driver keeps the
+//! documents' topic counts in a table, for all K topics from the
+//! document's row when it starts: one pass over K instead of counting the
+//! document's tokens at each of its P visits a sweep). The K weights are then one
 //! multiply-add each, summed in blocks of eight so that the draw compares
 //! against at most K/8 + 8 cumulative sums, counting rather than branching.
 //!
@@ -140,6 +143,7 @@ impl BlockKernel for ExactKernel<'_> {
     type Scratch = ExactScratch;
     // The word-major list is read only by the Metropolis-Hastings kernel.
     const USES_WORD_LIST: bool = false;
+    const USES_DOC_TABLE: bool = true;
 
     /// Samples every token of `block` once, document by document.
     fn sample_block(
@@ -154,6 +158,7 @@ impl BlockKernel for ExactKernel<'_> {
             shard,
             group,
             topics,
+            doc_topics,
             mut rows,
             ..
         } = block;
@@ -200,25 +205,45 @@ impl BlockKernel for ExactKernel<'_> {
             }
             let doc_range =
                 context.offsets[doc] as usize - first_token..context.offsets[doc + 1] as usize - first_token;
-            // Count the document's topics, noting each distinct one once, so
-            // that refreshing and later resetting their coefficients costs
-            // one step per topic, not per token.
-            // (Written without a branch on the count: early on, whether a
-            // topic is new to the document is a coin toss.)
-            distinct.clear();
-            distinct.resize(doc_range.len() + 1, 0);
-            let mut n_distinct = 0;
-            for &topic in &topics[doc_range] {
-                let count = &mut doc_counts[topic as usize];
-                distinct[n_distinct] = topic;
-                n_distinct += usize::from(*count == 0);
-                *count += 1;
-            }
-            distinct.truncate(n_distinct);
-            for &topic in distinct.iter() {
-                let topic = topic as usize;
-                coefficient[topic] = (f64::from(doc_counts[topic]) + alpha[topic]) * inverse_total[topic];
-            }
+            let table_row = if doc_topics.is_empty() {
+                // Count the document's topics, noting each distinct one once, so
+                // that refreshing and later resetting their coefficients costs
+                // one step per topic, not per token.
+                // (Written without a branch on the count: early on, whether a
+                // topic is new to the document is a coin toss.)
+                distinct.clear();
+                distinct.resize(doc_range.len() + 1, 0);
+                let mut n_distinct = 0;
+                for &topic in &topics[doc_range] {
+                    let count = &mut doc_counts[topic as usize];
+                    distinct[n_distinct] = topic;
+                    n_distinct += usize::from(*count == 0);
+                    *count += 1;
+                }
+                distinct.truncate(n_distinct);
+                for &topic in distinct.iter() {
+                    let topic = topic as usize;
+                    coefficient[topic] = (f64::from(doc_counts[topic]) + alpha[topic]) * inverse_total[topic];
+                }
+                None
+            } else {
+                // The counts kept from visit to visit: every coefficient is
+                // computed from them in one pass over K (the same values as
+                // above: a topic absent from the document gets
+                // `(0 + alpha_k) / (n_k + b0)`, which is `alpha_k / (n_k + b0)`).
+                distinct.clear();
+                let row = &mut doc_topics[(doc - shard.docs.start) * n_topics..][..n_topics];
+                for (((count, &kept), (coefficient, &alpha)), &inverse) in doc_counts
+                    .iter_mut()
+                    .zip(&*row)
+                    .zip(coefficient.iter_mut().zip(alpha))
+                    .zip(&*inverse_total)
+                {
+                    *count = u32::from(kept);
+                    *coefficient = (f64::from(*count) + alpha) * inverse;
+                }
+                Some(row)
+            };
             // The word and new topic of the token just sampled in this document.
             let mut repeat_of: Option<(usize, Topic)> = None;
             let doc_start = context.offsets[doc] as usize;
@@ -286,10 +311,21 @@ impl BlockKernel for ExactKernel<'_> {
                 topics[local] = new;
                 repeat_of = Some((word, new));
             }
-            for &topic in distinct.iter() {
-                let topic = topic as usize;
-                doc_counts[topic] = 0;
-                coefficient[topic] = alpha[topic] * inverse_total[topic];
+            match table_row {
+                None => {
+                    for &topic in distinct.iter() {
+                        let topic = topic as usize;
+                        doc_counts[topic] = 0;
+                        coefficient[topic] = alpha[topic] * inverse_total[topic];
+                    }
+                }
+                Some(row) => {
+                    // Counts fit: a document has at most `u16::MAX` tokens here.
+                    for (kept, count) in row.iter_mut().zip(doc_counts.iter_mut()) {
+                        *kept = *count as u16;
+                        *count = 0;
+                    }
+                }
             }
         }
     }

@@ -245,6 +245,7 @@ impl BlockKernel for MetropolisKernel<'_> {
             entries,
             first_slot,
             mut rows,
+            ..
         } = block;
         scratch.doc_counts.resize(self.n_topics, 0);
         let MetropolisScratch {

@@ -252,6 +252,23 @@ pub struct ShardedSampler {
     /// a distributed fit, where only the home groups' entries are current
     /// on a rank between sweeps) instead of rebuilt from the state.
     entries_current: bool,
+    /// For kernels that keep them and when they are small enough (see
+    /// [`doc_table_fits`]): each document's topic counts, K per document,
+    /// counted from the state at the start of each sweep; empty otherwise.
+    doc_topics: Vec<u16>,
+    /// Whether `doc_topics` may be kept at all (tests turn it off to
+    /// compare the two ways of counting).
+    doc_table_allowed: bool,
+}
+
+/// Whether a sweep keeps every document's topic counts in a table
+/// (`ShardedSampler::doc_topics`) for a kernel that can use it: when no
+/// document is too long for 16-bit counts and the table takes at most 4
+/// bytes a token (K at most twice the mean document length). A kernel
+/// without it counts a document's topics afresh each time it visits the
+/// document, P times a sweep.
+pub fn doc_table_fits(n_docs: usize, n_tokens: usize, longest: usize, n_topics: usize) -> bool {
+    longest <= usize::from(u16::MAX) && n_docs.saturating_mul(n_topics) <= 2 * n_tokens
 }
 
 impl ShardedSampler {
@@ -355,6 +372,8 @@ impl ShardedSampler {
             records: Vec::new(),
             own: 0..n_groups,
             entries_current: false,
+            doc_topics: Vec::new(),
+            doc_table_allowed: true,
         })
     }
 
@@ -408,6 +427,18 @@ impl ShardedSampler {
         self.entries.len()
     }
 
+    /// Whether the last sweep kept every document's topic counts in a table.
+    pub fn keeps_doc_table(&self) -> bool {
+        !self.doc_topics.is_empty()
+    }
+
+    /// Never keeps the documents' topic counts in a table: the kernel
+    /// counts a document's topics at each visit instead (for tests).
+    pub fn count_documents_each_visit(&mut self) {
+        self.doc_table_allowed = false;
+        self.doc_topics = Vec::new();
+    }
+
     /// Bytes of working memory held besides the state.
     pub fn heap_bytes(&self) -> usize {
         self.local.heap_bytes()
@@ -417,6 +448,7 @@ impl ShardedSampler {
             + self.doc_groups.len() * 4
             + self.block_costs.len() * 8
             + self.records.len() * std::mem::size_of::<WordRecord>()
+            + self.doc_topics.len() * 2
     }
 
     /// One sweep of the kernel over every block.
@@ -472,7 +504,7 @@ impl ShardedSampler {
         iteration: u64,
         mut link: Option<&mut dyn EpochLink>,
     ) {
-        self.load(state, corpus);
+        self.load(state, corpus, K::USES_DOC_TABLE);
         let own = self.own.clone();
         let n_groups = self.shards.len();
         let n_threads = rayon::current_num_threads().max(1);
@@ -488,8 +520,10 @@ impl ShardedSampler {
             doc_groups,
             block_costs,
             records,
+            doc_topics,
             ..
         } = self;
+        let table_width = if doc_topics.is_empty() { 0 } else { state.n_topics };
         let with_entries = !entries.is_empty();
         for epoch in 0..n_groups {
             let start_totals = state.topic_totals.clone();
@@ -510,6 +544,10 @@ impl ShardedSampler {
                 &mut state.assignments,
                 shards.iter().map(|shard| shard.tokens.end),
             );
+            let mut count_parts = split_by(
+                doc_topics,
+                shards.iter().map(|shard| shard.docs.end * table_width),
+            );
             let mut entry_parts: Vec<Option<&mut [Topic]>> = if with_entries {
                 split_by(entries, slot_bounds[1..].iter().copied())
                     .into_iter()
@@ -526,9 +564,9 @@ impl ShardedSampler {
                 .collect();
             let mut blocks: Vec<Block<'_>> = shards
                 .iter()
-                .zip(topic_parts.drain(..))
+                .zip(topic_parts.drain(..).zip(count_parts.drain(..)))
                 .filter(|(shard, _)| own.contains(&shard.index))
-                .map(|(shard, topics)| {
+                .map(|(shard, (topics, doc_topics))| {
                     let group = (shard.index + epoch) % n_groups;
                     Block {
                         index: shard.index * n_groups + group,
@@ -536,6 +574,7 @@ impl ShardedSampler {
                         group,
                         words: word_bounds[group]..word_bounds[group + 1],
                         topics,
+                        doc_topics,
                         entries: entry_parts[group].take().expect("each group once per epoch"),
                         first_slot: slot_bounds[group],
                         rows: row_parts[group].take().expect("each group once per epoch"),
@@ -628,9 +667,10 @@ impl ShardedSampler {
     }
 
     /// Puts the state's topics into sampler order (document by document, in
-    /// place), and copies them into the word-major list when the kernel
-    /// reads it.
-    fn load(&mut self, state: &mut CountState, corpus: &Corpus) {
+    /// place), counts each document's topics into `doc_topics` when the
+    /// kernel keeps them (`doc_table`) and they fit, and copies the topics
+    /// into the word-major list when the kernel reads it.
+    fn load(&mut self, state: &mut CountState, corpus: &Corpus, doc_table: bool) {
         if self.records.len() != state.n_words {
             let word_first = &self.word_first;
             self.records = (0..state.n_words)
@@ -641,6 +681,22 @@ impl ShardedSampler {
                 })
                 .collect();
         }
+        let n_topics = state.n_topics;
+        let longest = (0..corpus.n_docs())
+            .map(|doc| (corpus.offsets[doc + 1] - corpus.offsets[doc]) as usize)
+            .max()
+            .unwrap_or(0);
+        let width = if doc_table
+            && self.doc_table_allowed
+            && doc_table_fits(corpus.n_docs(), corpus.n_tokens(), longest, n_topics)
+        {
+            n_topics
+        } else {
+            0
+        };
+        self.doc_topics.clear();
+        self.doc_topics.resize(corpus.n_docs() * width, 0);
+        self.doc_topics.shrink_to_fit();
         let local = &self.local;
         let offsets = &corpus.offsets;
         let own = self.own.clone();
@@ -649,9 +705,13 @@ impl ShardedSampler {
             self.shards.iter().map(|shard| shard.tokens.end),
         )
         .into_par_iter()
+        .zip(split_by(
+            &mut self.doc_topics,
+            self.shards.iter().map(|shard| shard.docs.end * width),
+        ))
         .zip(&self.shards)
         .filter(|(_, shard)| own.contains(&shard.index))
-        .for_each(|(topics, shard)| {
+        .for_each(|((topics, doc_topics), shard)| {
             let first = shard.tokens.start;
             let mut corpus_order: Vec<Topic> = Vec::new();
             for doc in shard.docs.clone() {
@@ -660,6 +720,12 @@ impl ShardedSampler {
                 corpus_order.extend_from_slice(&topics[range.clone()]);
                 for (position, topic) in (first + range.start..).zip(&mut topics[range]) {
                     *topic = corpus_order[local.get(position)];
+                }
+                if width > 0 {
+                    let row = &mut doc_topics[(doc - shard.docs.start) * width..][..width];
+                    for &topic in &corpus_order {
+                        row[topic as usize] += 1;
+                    }
                 }
             }
         });
@@ -837,6 +903,71 @@ mod tests {
         // The sparse kernel's set-up term: a word met in two shards costs
         // more than the same tokens met in one.
         assert!(SparseKernel::word_cost(5, 4, 2) > SparseKernel::word_cost(5, 4, 1));
+    }
+
+    #[test]
+    fn the_document_table_is_kept_only_when_small_and_narrow() {
+        // Source: common practice — the rule as documented: at most 4 bytes
+        // a token (K * D <= 2 N) and no document past 16-bit counts.
+        assert!(doc_table_fits(10, 500, 100, 100));
+        assert!(!doc_table_fits(10, 500, 100, 101));
+        assert!(doc_table_fits(10, 1_000_000, 65_535, 100));
+        assert!(!doc_table_fits(10, 1_000_000, 65_536, 100));
+        assert!(!doc_table_fits(usize::MAX, usize::MAX / 4, 1, 3));
+    }
+
+    #[test]
+    fn the_document_table_changes_no_draw() {
+        // Source: common practice — the exact kernel's coefficients
+        // (n_dk + alpha_k) / (n_k + b0) are the same numbers whether n_dk is
+        // counted at each visit or kept in a table, so the same seed must
+        // give the same state bit for bit, on one thread and on two.
+        use crate::fitting::sampler::{BetaPrior, CountState, Priors};
+        use rand::SeedableRng;
+        let n_words = 12;
+        let vocabulary = Vocabulary::from_parts(
+            (0..n_words).map(|w| format!("w{w}")).collect(),
+            vec![1; n_words],
+            vec![1; n_words],
+        );
+        let docs: Vec<Vec<u32>> = (0..20)
+            .map(|d| {
+                (0..30 + d)
+                    .map(|i| ((i * 7 + d * 5 + i / 3) % n_words) as u32)
+                    .collect()
+            })
+            .collect();
+        let corpus = Corpus::from_documents(vocabulary, docs);
+        let n_topics = 8;
+        let priors = Priors {
+            alpha: (0..n_topics).map(|k| 0.1 + 0.05 * k as f64).collect(),
+            beta: BetaPrior::Symmetric(0.1),
+        };
+        let start = CountState::random(
+            &corpus,
+            n_topics,
+            &mut rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(4),
+        );
+        let run = |table: bool, threads: usize| {
+            let mut state = start.clone();
+            let mut sampler = ShardedSampler::new(&corpus, 3, SamplerKind::Exact).unwrap();
+            if !table {
+                sampler.count_documents_each_visit();
+            }
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap();
+            for iteration in 1..=3 {
+                pool.install(|| sampler.sweep(&mut state, &corpus, &priors, 9, iteration));
+            }
+            assert_eq!(sampler.keeps_doc_table(), table);
+            state
+        };
+        let counted = run(false, 1);
+        assert_ne!(counted, start, "three sweeps moved no token");
+        assert_eq!(run(true, 1), counted);
+        assert_eq!(run(true, 2), counted);
     }
 
     #[test]
