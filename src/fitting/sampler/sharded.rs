@@ -256,6 +256,8 @@ pub struct ShardedSampler {
     /// [`doc_table_fits`]): each document's topic counts, K per document,
     /// counted from the state at the start of each sweep; empty otherwise.
     doc_topics: Vec<u16>,
+    /// Tokens of the corpus's longest document (for [`doc_table_fits`]).
+    longest: usize,
     /// Whether `doc_topics` may be kept at all (tests turn it off to
     /// compare the two ways of counting).
     doc_table_allowed: bool,
@@ -373,6 +375,7 @@ impl ShardedSampler {
             own: 0..n_groups,
             entries_current: false,
             doc_topics: Vec::new(),
+            longest,
             doc_table_allowed: true,
         })
     }
@@ -682,13 +685,9 @@ impl ShardedSampler {
                 .collect();
         }
         let n_topics = state.n_topics;
-        let longest = (0..corpus.n_docs())
-            .map(|doc| (corpus.offsets[doc + 1] - corpus.offsets[doc]) as usize)
-            .max()
-            .unwrap_or(0);
         let width = if doc_table
             && self.doc_table_allowed
-            && doc_table_fits(corpus.n_docs(), corpus.n_tokens(), longest, n_topics)
+            && doc_table_fits(corpus.n_docs(), corpus.n_tokens(), self.longest, n_topics)
         {
             n_topics
         } else {
@@ -824,6 +823,15 @@ mod tests {
     use super::*;
     use crate::ingest::vocab::Vocabulary;
 
+    /// Words `w0`, `w1`, ... each counted once.
+    fn numbered_vocabulary(n_words: usize) -> Vocabulary {
+        Vocabulary::from_parts(
+            (0..n_words).map(|w| format!("w{w}")).collect(),
+            vec![1; n_words],
+            vec![1; n_words],
+        )
+    }
+
     fn corpus(doc_lens: &[usize]) -> Corpus {
         let vocabulary = Vocabulary::from_parts(vec!["a".into(), "b".into()], vec![1, 1], vec![1, 1]);
         let docs = doc_lens
@@ -925,11 +933,7 @@ mod tests {
         use crate::fitting::sampler::{BetaPrior, CountState, Priors};
         use rand::SeedableRng;
         let n_words = 12;
-        let vocabulary = Vocabulary::from_parts(
-            (0..n_words).map(|w| format!("w{w}")).collect(),
-            vec![1; n_words],
-            vec![1; n_words],
-        );
+        let vocabulary = numbered_vocabulary(n_words);
         let docs: Vec<Vec<u32>> = (0..20)
             .map(|d| {
                 (0..30 + d)
@@ -1013,11 +1017,7 @@ mod tests {
         use crate::fitting::sampler::{BetaPrior, CountState, Priors};
         use rand::SeedableRng;
         let n_words = 7;
-        let vocabulary = Vocabulary::from_parts(
-            (0..n_words).map(|w| format!("w{w}")).collect(),
-            vec![1; n_words],
-            vec![1; n_words],
-        );
+        let vocabulary = numbered_vocabulary(n_words);
         // A document longer than 65,536 tokens needs 32-bit offsets.
         for lens in [vec![30usize, 5, 12, 40], vec![70_000, 9, 300]] {
             let docs = lens
